@@ -1,0 +1,271 @@
+//! The rate at which a smoother's update runs, and where that knowledge comes from.
+//!
+//! For now the rate comes from the coefficient's own derivation (a step `dt` or a rate in
+//! Hz among the definitions the coefficient was computed from) or from a default the user
+//! gives. Names are read the way firmware engineers write them (`DT`, `LOOP_HZ`,
+//! `TICK_MS`, `SAMPLE_RATE`); cutoff and time-constant names are excluded, since they are
+//! the filter's own parameters, not the rate it runs at. Propagation from entry functions
+//! down the call graph arrives with the spec.
+
+use crate::eval::ChainStep;
+use crate::ir::Span;
+use crate::recognise::Coefficient;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RateKind {
+    /// A constant of the program (in the coefficient's derivation).
+    Constant,
+    /// Given by the user (command line, later the spec).
+    Spec,
+    /// The coefficient follows a time step measured at run time.
+    Adaptive,
+    /// The update runs per event (packet, edge): no rate in Hz.
+    Event,
+    Unknown,
+}
+
+impl RateKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            RateKind::Constant => "constant",
+            RateKind::Spec => "spec",
+            RateKind::Adaptive => "adaptive",
+            RateKind::Event => "event",
+            RateKind::Unknown => "unknown",
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct RateInfo {
+    pub hz: Option<f64>,
+    pub kind: RateKind,
+    /// Where the rate comes from, in words (`DT = 0.002 at control.c:12`).
+    pub source: Option<String>,
+    pub span: Option<Span>,
+    /// Other rates found in the same derivation that disagree with the first.
+    pub conflicts: Vec<(f64, String)>,
+}
+
+impl RateInfo {
+    pub fn unknown() -> RateInfo {
+        RateInfo {
+            hz: None,
+            kind: RateKind::Unknown,
+            source: None,
+            span: None,
+            conflicts: Vec::new(),
+        }
+    }
+}
+
+fn words(name: &str) -> Vec<String> {
+    // Split on underscores and lower-to-upper case changes: `loopPeriodMs` -> loop period ms.
+    let mut out = Vec::new();
+    let mut current = String::new();
+    let mut previous_lower = false;
+    for c in name.chars() {
+        if c == '_' || !c.is_ascii_alphanumeric() {
+            if !current.is_empty() {
+                out.push(std::mem::take(&mut current));
+            }
+            previous_lower = false;
+            continue;
+        }
+        if c.is_ascii_uppercase() && previous_lower && !current.is_empty() {
+            out.push(std::mem::take(&mut current));
+        }
+        previous_lower = c.is_ascii_lowercase() || c.is_ascii_digit();
+        current.push(c.to_ascii_lowercase());
+    }
+    if !current.is_empty() {
+        out.push(current);
+    }
+    out
+}
+
+const FILTER_OWN: &[&str] = &[
+    "fc",
+    "cut",
+    "cutoff",
+    "corner",
+    "bw",
+    "bandwidth",
+    "tau",
+    "rc",
+    "tc",
+    "pole",
+    "fcut",
+    "f3db",
+    "alpha",
+    "gain",
+    "lpf",
+    "knee",
+];
+
+/// Whether a name reads as the time step between updates (`dt`, `DT_S`, `TICK_MS`).
+pub fn is_time_step_name(name: &str) -> bool {
+    time_step_scale(name).is_some()
+}
+
+/// For a time-step name, the factor from its unit to seconds.
+fn time_step_scale(name: &str) -> Option<f64> {
+    let w = words(name);
+    if w.iter().any(|x| FILTER_OWN.contains(&x.as_str())) {
+        return None;
+    }
+    let step = w.iter().any(|x| {
+        matches!(
+            x.as_str(),
+            "dt" | "ts" | "period" | "interval" | "tick" | "tsample" | "step" | "delta"
+        )
+    }) || (w.iter().any(|x| x == "sample") && w.iter().any(|x| x == "time"));
+    if !step {
+        return None;
+    }
+    let unit = if w.iter().any(|x| x == "ms" || x == "msec") {
+        1e-3
+    } else if w.iter().any(|x| x == "us" || x == "usec") {
+        1e-6
+    } else {
+        1.0
+    };
+    Some(unit)
+}
+
+/// For a rate name, the factor from its unit to Hz.
+fn rate_scale(name: &str) -> Option<f64> {
+    let w = words(name);
+    if w.iter().any(|x| FILTER_OWN.contains(&x.as_str())) {
+        return None;
+    }
+    let khz = w.iter().any(|x| x == "khz");
+    let rate = khz
+        || w.iter().any(|x| {
+            matches!(
+                x.as_str(),
+                "fs" | "hz" | "rate" | "sps" | "samplerate" | "freq"
+            )
+        });
+    if !rate {
+        return None;
+    }
+    // A plain "freq" is too often a signal's frequency; want a word saying it is the loop's.
+    let plain_freq =
+        w.iter().any(|x| x == "freq") && !w.iter().any(|x| x == "hz" || x == "fs" || x == "rate");
+    if plain_freq
+        && !w.iter().any(|x| {
+            matches!(
+                x.as_str(),
+                "sample" | "sampling" | "loop" | "control" | "update" | "isr" | "task"
+            )
+        })
+    {
+        return None;
+    }
+    Some(if khz { 1e3 } else { 1.0 })
+}
+
+/// The rate a name and its value imply, if the name reads as a rate or a time step.
+pub fn rate_from_name(name: &str, value: f64) -> Option<f64> {
+    if !(value.is_finite() && value > 0.0) {
+        return None;
+    }
+    if let Some(unit) = time_step_scale(name) {
+        return Some(1.0 / (value * unit));
+    }
+    rate_scale(name).map(|unit| value * unit)
+}
+
+/// The rate of a smoother from its coefficient's derivation, else the default.
+pub fn rate_of(chain: &[ChainStep], alpha: &Coefficient, default_hz: Option<f64>) -> RateInfo {
+    if let Coefficient::Adaptive { depends_on, .. } = alpha {
+        return RateInfo {
+            hz: None,
+            kind: RateKind::Adaptive,
+            source: Some(format!(
+                "coefficient follows `{depends_on}` measured at run time"
+            )),
+            span: None,
+            conflicts: Vec::new(),
+        };
+    }
+    // Every rate the derivation mentions; a definition (`#define`, a constant) is the
+    // origin and reads better than a parameter it was passed through.
+    let mut rates: Vec<(f64, &ChainStep, String)> = Vec::new();
+    for step in chain {
+        let (Some(name), Some(value)) = (&step.name, step.value) else {
+            continue;
+        };
+        if let Some(hz) = rate_from_name(name, value) {
+            rates.push((hz, step, format!("{name} = {value} ({})", step.text)));
+        }
+    }
+    let is_definition = |s: &ChainStep| {
+        s.text.starts_with("#define") || s.text.contains(" = ") && !s.text.contains(':')
+    };
+    let found = rates.first().map(|(first_hz, _, _)| {
+        let agree = |hz: f64| (hz - first_hz).abs() <= 1e-6 * first_hz.abs();
+        let chosen = rates
+            .iter()
+            .filter(|(hz, _, _)| agree(*hz))
+            .rfind(|(_, step, _)| is_definition(step))
+            .or_else(|| rates.first())
+            .cloned();
+        let conflicts = rates
+            .iter()
+            .filter(|(hz, _, _)| !agree(*hz))
+            .map(|(hz, _, source)| (*hz, source.clone()))
+            .collect();
+        let (hz, step, source) = chosen.unwrap_or_else(|| rates[0].clone());
+        RateInfo {
+            hz: Some(hz),
+            kind: RateKind::Constant,
+            source: Some(source),
+            span: Some(Span {
+                file: step.file,
+                line: step.line,
+                column: 1,
+                ..Span::default()
+            }),
+            conflicts,
+        }
+    });
+    if let Some(info) = found {
+        return info;
+    }
+    match default_hz {
+        Some(hz) => RateInfo {
+            hz: Some(hz),
+            kind: RateKind::Spec,
+            source: Some("--rate on the command line".into()),
+            span: None,
+            conflicts: Vec::new(),
+        },
+        None => RateInfo::unknown(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rate_names_are_read_with_units() {
+        assert_eq!(rate_from_name("LOOP_HZ", 500.0), Some(500.0));
+        assert_eq!(rate_from_name("DT", 0.002), Some(500.0));
+        assert_eq!(rate_from_name("TICK_MS", 10.0), Some(100.0));
+        assert_eq!(rate_from_name("loopPeriodUs", 250.0), Some(4000.0));
+        assert_eq!(rate_from_name("SAMPLE_RATE_KHZ", 8.0), Some(8000.0));
+        assert_eq!(rate_from_name("dt", 0.001), Some(1000.0));
+    }
+
+    #[test]
+    fn filter_parameters_are_not_rates() {
+        assert_eq!(rate_from_name("CUTOFF_HZ", 5.0), None);
+        assert_eq!(rate_from_name("FC_HZ", 5.0), None);
+        assert_eq!(rate_from_name("TAU_MS", 5.0), None);
+        assert_eq!(rate_from_name("signal_freq", 50.0), None);
+        assert_eq!(rate_from_name("ALPHA", 0.1), None);
+    }
+}

@@ -1,0 +1,1058 @@
+//! The constant evaluator: what value does this C expression have, and which definitions
+//! did it come from?
+//!
+//! It resolves names through the program index (macros of the active preprocessor branch,
+//! enum constants, `const` and never-written globals, struct fields set in init functions
+//! or initialisers, small helper functions that return a formula) and computes with the
+//! C rules of `num`. Every definition it passes through is recorded as a `ChainStep`, so a
+//! coefficient can be shown with its derivation. A value it cannot know is
+//! `Unknown` with the reason, never a guess; depth, cycle and step limits make it total.
+
+pub mod num;
+
+use crate::index::{FuncRef, Program};
+use crate::ir::*;
+use num::{ArithError, Num, Target};
+use std::collections::HashMap;
+
+const MAX_DEPTH: u32 = 48;
+const MAX_STEPS: u32 = 20_000;
+
+/// One definition a value was derived through.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChainStep {
+    pub file: FileId,
+    pub line: u32,
+    pub text: String,
+    /// The name this step defines (macro, constant, field, parameter), when it has one.
+    pub name: Option<String>,
+    /// The value the name took, when it was known.
+    pub value: Option<f64>,
+}
+
+/// Why a value is not known.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Unknown {
+    pub reason: String,
+    /// The run-time quantity (a parameter, a variable set while running) the value depends
+    /// on, when that is the reason.
+    pub runtime: Option<String>,
+}
+
+impl Unknown {
+    pub fn new(reason: impl Into<String>) -> Unknown {
+        Unknown {
+            reason: reason.into(),
+            runtime: None,
+        }
+    }
+    fn runtime(name: &str, reason: impl Into<String>) -> Unknown {
+        Unknown {
+            reason: reason.into(),
+            runtime: Some(name.to_string()),
+        }
+    }
+}
+
+impl From<ArithError> for Unknown {
+    fn from(e: ArithError) -> Unknown {
+        Unknown::new(e.to_string())
+    }
+}
+
+/// The names visible where an expression stands.
+#[derive(Debug, Clone, Default)]
+pub struct Scope {
+    pub function: Option<FuncRef>,
+    /// Places (by their C text) with a known value: bound parameters, simulated state.
+    pub values: HashMap<String, Num>,
+    /// Local names that stand for an expression of the same scope (temporaries, local
+    /// constants).
+    pub exprs: HashMap<String, Expr>,
+}
+
+impl Scope {
+    pub fn in_function(function: FuncRef) -> Scope {
+        Scope {
+            function: Some(function),
+            ..Scope::default()
+        }
+    }
+}
+
+/// Flags raised while evaluating, for the integer-hazard checks.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Flags {
+    pub signed_overflow: bool,
+    pub unsigned_wrap: bool,
+}
+
+pub struct Evaluator<'p> {
+    pub program: &'p Program,
+    /// A macro definition to use instead of the active one (to evaluate the value under
+    /// another preprocessor branch).
+    pub macro_override: Option<MacroDef>,
+    pub chain: Vec<ChainStep>,
+    pub flags: Flags,
+    depth: u32,
+    steps: u32,
+    active: Vec<String>,
+}
+
+impl<'p> Evaluator<'p> {
+    pub fn new(program: &'p Program) -> Evaluator<'p> {
+        Evaluator {
+            program,
+            macro_override: None,
+            chain: Vec::new(),
+            flags: Flags::default(),
+            depth: 0,
+            steps: 0,
+            active: Vec::new(),
+        }
+    }
+
+    fn target(&self) -> Target {
+        self.program.options.target
+    }
+
+    fn record(&mut self, file: FileId, line: u32, text: String) {
+        self.record_named(file, line, text, None);
+    }
+
+    /// Records a step; returns its position so the value can be filled in once known.
+    fn record_named(&mut self, file: FileId, line: u32, text: String, name: Option<&str>) -> usize {
+        if let Some(i) = self
+            .chain
+            .iter()
+            .position(|s| s.file == file && s.line == line && s.text == text)
+        {
+            return i;
+        }
+        self.chain.push(ChainStep {
+            file,
+            line,
+            text,
+            name: name.map(str::to_string),
+            value: None,
+        });
+        self.chain.len() - 1
+    }
+
+    fn fill(&mut self, step: usize, value: &Result<Num, Unknown>) {
+        if let (Some(s), Ok(v)) = (self.chain.get_mut(step), value) {
+            s.value = Some(v.as_f64());
+        }
+    }
+
+    /// Evaluates `expr` in `scope`.
+    pub fn eval(&mut self, expr: &Expr, scope: &Scope) -> Result<Num, Unknown> {
+        self.steps += 1;
+        if self.steps > MAX_STEPS {
+            return Err(Unknown::new("evaluation step limit reached"));
+        }
+        if self.depth > MAX_DEPTH {
+            return Err(Unknown::new("definitions nest too deeply"));
+        }
+        self.depth += 1;
+        let result = self.eval_inner(expr, scope);
+        self.depth -= 1;
+        result
+    }
+
+    fn eval_inner(&mut self, expr: &Expr, scope: &Scope) -> Result<Num, Unknown> {
+        let target = self.target();
+        if let Some(v) = scope.values.get(&expr.to_string()) {
+            if matches!(
+                expr.kind,
+                ExprKind::Ident(_)
+                    | ExprKind::Field { .. }
+                    | ExprKind::Index { .. }
+                    | ExprKind::Unary {
+                        op: UnaryOp::Deref,
+                        ..
+                    }
+            ) {
+                return Ok(*v);
+            }
+        }
+        match &expr.kind {
+            ExprKind::Int {
+                value,
+                unsigned,
+                long,
+            } => Ok(int_literal(*value, *unsigned, *long, target)),
+            ExprKind::Float { value, single } => Ok(Num::Float {
+                value: if *single {
+                    *value as f32 as f64
+                } else {
+                    *value
+                },
+                single: *single,
+            }),
+            ExprKind::Ident(name) => self.ident(name, expr.span, scope),
+            ExprKind::Unary { op, arg } => {
+                if *op == UnaryOp::Deref || *op == UnaryOp::AddrOf {
+                    return self.place(expr, scope);
+                }
+                let a = self.eval(arg, scope)?;
+                let out = num::unary(*op, a, target)?;
+                self.note(out.signed_overflow, out.unsigned_wrap);
+                Ok(out.value)
+            }
+            ExprKind::Binary { op, lhs, rhs } => {
+                let a = self.eval(lhs, scope)?;
+                // Short-circuit operators do not evaluate the right side when the left decides.
+                if *op == BinaryOp::And && a.is_zero() {
+                    return Ok(Num::int(0, target.int(true)));
+                }
+                if *op == BinaryOp::Or && !a.is_zero() {
+                    return Ok(Num::int(1, target.int(true)));
+                }
+                let b = self.eval(rhs, scope)?;
+                let out = num::binary(*op, a, b, target)?;
+                self.note(out.signed_overflow, out.unsigned_wrap);
+                Ok(out.value)
+            }
+            ExprKind::Cast { ty, arg } => {
+                let v = self.eval(arg, scope)?;
+                let ty = self.program.resolve_type(ty);
+                Ok(v.convert(&ty, target))
+            }
+            ExprKind::Conditional {
+                cond,
+                then,
+                otherwise,
+            } => {
+                let c = self.eval(cond, scope)?;
+                if !c.is_zero() {
+                    self.eval(then, scope)
+                } else {
+                    self.eval(otherwise, scope)
+                }
+            }
+            ExprKind::Call { callee, args } => self.call(callee, args, scope),
+            ExprKind::Field { .. } | ExprKind::Index { .. } => self.place(expr, scope),
+            ExprKind::Comma(items) => {
+                let mut last = Err(Unknown::new("empty comma expression"));
+                for item in items {
+                    last = self.eval(item, scope);
+                }
+                last
+            }
+            ExprKind::Assign { value, .. } => self.eval(value, scope),
+            ExprKind::IncDec { target: t, .. } => Err(Unknown::runtime(
+                &t.to_string(),
+                format!("`{t}` changes while running"),
+            )),
+            ExprKind::Opaque(text) => Err(Unknown::new(format!("`{text}` is not evaluated"))),
+        }
+    }
+
+    fn note(&mut self, signed_overflow: bool, unsigned_wrap: bool) {
+        self.flags.signed_overflow |= signed_overflow;
+        self.flags.unsigned_wrap |= unsigned_wrap;
+    }
+
+    fn guarded<T>(
+        &mut self,
+        key: String,
+        f: impl FnOnce(&mut Self) -> Result<T, Unknown>,
+    ) -> Result<T, Unknown> {
+        if self.active.contains(&key) {
+            return Err(Unknown::new(format!(
+                "`{key}` is defined in terms of itself"
+            )));
+        }
+        self.active.push(key);
+        let result = f(self);
+        self.active.pop();
+        result
+    }
+
+    fn ident(&mut self, name: &str, span: Span, scope: &Scope) -> Result<Num, Unknown> {
+        if let Some(e) = scope.exprs.get(name) {
+            let e = e.clone();
+            return self.guarded(format!("local {name}"), |ev| ev.eval(&e, scope));
+        }
+        if let Some(f) = scope.function {
+            let function = self.program.function(f);
+            if function.params.iter().any(|p| p.name == name) {
+                return Err(Unknown::runtime(
+                    name,
+                    format!("`{name}` is a parameter of {}()", function.name),
+                ));
+            }
+            if let Some(local) = find_local(function, name) {
+                let fname = function.name.clone();
+                let never_written = !self.program.writes_to(name).any(|w| w.function == f);
+                return match &local.init {
+                    Some(Initializer::Expr(init))
+                        if local.is_const || (local.is_static && never_written) =>
+                    {
+                        let init = init.clone();
+                        let ty = self.program.resolve_type(&local.ty);
+                        self.guarded(format!("local {name}"), |ev| {
+                            let step = ev.record_named(
+                                local.span.file,
+                                local.span.line,
+                                format!("{} {} = {init}", local.ty, local.name),
+                                Some(name),
+                            );
+                            let v = ev.eval(&init, scope).map(|v| v.convert(&ty, ev.target()));
+                            ev.fill(step, &v);
+                            v
+                        })
+                    }
+                    _ => Err(Unknown::runtime(
+                        name,
+                        format!("`{name}` is a variable of {fname}() set while running"),
+                    )),
+                };
+            }
+        }
+        let chosen = match &self.macro_override {
+            Some(m) if m.name == name => Some(m.clone()),
+            _ => self.program.active_macro(name).cloned(),
+        };
+        if let Some(m) = chosen {
+            if m.params.is_none() {
+                return self.guarded(format!("macro {name}"), |ev| {
+                    let step = ev.record_named(
+                        m.span.file,
+                        m.span.line,
+                        format!("#define {} {}", m.name, m.body),
+                        Some(name),
+                    );
+                    let Some(body) = crate::parse::parse_expression(&m.body, m.span) else {
+                        return Err(Unknown::new(format!(
+                            "the body of macro {name} is not an expression"
+                        )));
+                    };
+                    let v = ev.eval(&body, &Scope::default());
+                    ev.fill(step, &v);
+                    v
+                });
+            }
+        } else if self.program.is_macro(name) {
+            return Err(Unknown::new(format!(
+                "macro {name} is not defined with the active preprocessor values"
+            )));
+        }
+        if let Some((file, e)) = self.program.enum_const_in(name) {
+            let e = e.clone();
+            return self.guarded(format!("enum {name}"), |ev| ev.enum_value(file, &e));
+        }
+        if let Some(global) = self.program.global(name) {
+            let global = global.clone();
+            return self.guarded(format!("global {name}"), |ev| ev.global_value(&global));
+        }
+        match name {
+            "M_PI" => return Ok(Num::double(std::f64::consts::PI)),
+            "M_PI_2" => return Ok(Num::double(std::f64::consts::FRAC_PI_2)),
+            "M_2PI" | "M_TWOPI" => return Ok(Num::double(std::f64::consts::TAU)),
+            "M_E" => return Ok(Num::double(std::f64::consts::E)),
+            "M_SQRT2" => return Ok(Num::double(std::f64::consts::SQRT_2)),
+            _ => {}
+        }
+        let _ = span;
+        Err(Unknown::runtime(
+            name,
+            format!("`{name}` has no constant value in the scanned files"),
+        ))
+    }
+
+    fn enum_value(&mut self, file: FileId, e: &EnumConst) -> Result<Num, Unknown> {
+        let target = self.target();
+        let value = match &e.value {
+            Some(v) => {
+                self.record(file, e.span.line, format!("{} = {v}", e.name));
+                self.eval(v, &Scope::default())?
+            }
+            None => match &e.previous {
+                Some(prev) => {
+                    let p = self.ident(prev, e.span, &Scope::default())?;
+                    self.record(file, e.span.line, format!("{} = {prev} + 1", e.name));
+                    Num::int(p.as_f64() as i128 + 1, target.int(true))
+                }
+                None => {
+                    self.record(file, e.span.line, format!("{} = 0", e.name));
+                    Num::int(0, target.int(true))
+                }
+            },
+        };
+        Ok(value.convert(&CType::PlainInt { signed: true }, target))
+    }
+
+    fn global_value(&mut self, decl: &LocalDecl) -> Result<Num, Unknown> {
+        let ty = self.program.resolve_type(&decl.ty);
+        let writes: Vec<_> = self.program.writes_to(&decl.name).cloned().collect();
+        if !decl.is_const && !writes.is_empty() {
+            return self.value_from_writes(&decl.name, &writes, &ty);
+        }
+        match &decl.init {
+            Some(Initializer::Expr(init)) => {
+                let prefix = if decl.is_const { "const " } else { "" };
+                let step = self.record_named(
+                    decl.span.file,
+                    decl.span.line,
+                    format!("{prefix}{} {} = {init}", decl.ty, decl.name),
+                    Some(&decl.name),
+                );
+                let v = self
+                    .eval(init, &Scope::default())
+                    .map(|v| v.convert(&ty, self.target()));
+                self.fill(step, &v);
+                v
+            }
+            _ => Err(Unknown::runtime(
+                &decl.name,
+                format!(
+                    "`{}` has no initial value and is not assigned a constant",
+                    decl.name
+                ),
+            )),
+        }
+    }
+
+    /// A value assigned to a place in function bodies: known when every plain assignment
+    /// gives the same constant.
+    fn value_from_writes(
+        &mut self,
+        place: &str,
+        writes: &[crate::index::Write],
+        ty: &CType,
+    ) -> Result<Num, Unknown> {
+        let mut values: Vec<Num> = Vec::new();
+        for w in writes {
+            if w.op.is_some() {
+                return Err(Unknown::runtime(
+                    place,
+                    format!("`{place}` is updated while running"),
+                ));
+            }
+            let scope = Scope::in_function(w.function);
+            self.record(w.span.file, w.span.line, format!("{place} = {}", w.value));
+            let v = self.eval(&w.value, &scope)?.convert(ty, self.target());
+            if !values.iter().any(|x| x == &v) {
+                values.push(v);
+            }
+        }
+        match values.as_slice() {
+            [one] => Ok(*one),
+            [] => Err(Unknown::new(format!("`{place}` is never assigned"))),
+            _ => Err(Unknown::runtime(
+                place,
+                format!("`{place}` is assigned {} different values", values.len()),
+            )),
+        }
+    }
+
+    /// A field, array element or dereference: bound values first, then every assignment
+    /// to that place (directly, through an init function's pointer parameter, or in an
+    /// initialiser).
+    fn place(&mut self, expr: &Expr, scope: &Scope) -> Result<Num, Unknown> {
+        let text = expr.to_string();
+        if let Some(v) = scope.values.get(&text) {
+            return Ok(*v);
+        }
+        if let ExprKind::Unary {
+            op: UnaryOp::AddrOf,
+            ..
+        } = expr.kind
+        {
+            return Err(Unknown::new(format!("`{text}` is an address")));
+        }
+        // A field reached through a parameter of this function is set per call.
+        if let Some(root) = expr.root_ident() {
+            if let Some(f) = scope.function {
+                let function = self.program.function(f);
+                if function.params.iter().any(|p| p.name == root) {
+                    return Err(Unknown::runtime(
+                        &text,
+                        format!(
+                            "`{text}` is reached through a parameter of {}()",
+                            function.name
+                        ),
+                    ));
+                }
+            }
+        }
+        let key = format!("place {text}");
+        self.guarded(key, |ev| ev.place_from_writes(expr, &text))
+    }
+
+    fn place_from_writes(&mut self, expr: &Expr, text: &str) -> Result<Num, Unknown> {
+        let ty = self.place_type(expr).unwrap_or(CType::Double);
+        let mut values: Vec<Num> = Vec::new();
+        let mut unknown: Option<Unknown> = None;
+        let direct: Vec<_> = self.program.writes_to(text).cloned().collect();
+        for w in &direct {
+            if w.op.is_some() {
+                return Err(Unknown::runtime(
+                    text,
+                    format!("`{text}` is updated while running"),
+                ));
+            }
+            self.record(w.span.file, w.span.line, format!("{text} = {}", w.value));
+            match self.eval(&w.value, &Scope::in_function(w.function)) {
+                Ok(v) => push_unique(&mut values, v.convert(&ty, self.target())),
+                Err(u) => unknown = Some(u),
+            }
+        }
+        // `init(&X, ...)` where init writes `p->field = ...`.
+        if let ExprKind::Field { base, field, .. } = &expr.kind {
+            let base_text = base.to_string();
+            let address = format!("&{base}");
+            let calls: Vec<_> = self
+                .program
+                .calls()
+                .iter()
+                .filter(|c| c.args.iter().any(|a| a.to_string() == address))
+                .cloned()
+                .collect();
+            for call in calls {
+                let Some(callee) = self.program.function_by_name(&call.callee) else {
+                    continue;
+                };
+                let function = self.program.function(callee).clone();
+                let Some(position) = call.args.iter().position(|a| a.to_string() == address) else {
+                    continue;
+                };
+                let Some(param) = function.params.get(position) else {
+                    continue;
+                };
+                let inner_place = format!("{}->{field}", param.name);
+                let writes: Vec<_> = self
+                    .program
+                    .writes_to(&inner_place)
+                    .filter(|w| w.function == callee)
+                    .cloned()
+                    .collect();
+                if writes.is_empty() {
+                    continue;
+                }
+                // Bind the callee's parameters to the call's arguments.
+                let mut scope = Scope::in_function(callee);
+                let caller_scope = Scope::in_function(call.caller);
+                self.record(call.span.file, call.span.line, call.to_string_call());
+                for (p, a) in function.params.iter().zip(&call.args) {
+                    if a.to_string() == address {
+                        continue;
+                    }
+                    let step = self.record_named(
+                        call.span.file,
+                        call.span.line,
+                        format!("{}: {} = {a}", function.name, p.name),
+                        Some(&p.name),
+                    );
+                    let pty = self.program.resolve_type(&p.ty);
+                    let v = self
+                        .eval(a, &caller_scope)
+                        .map(|v| v.convert(&pty, self.target()));
+                    self.fill(step, &v);
+                    if let Ok(v) = v {
+                        scope.values.insert(p.name.clone(), v);
+                    }
+                }
+                for w in writes {
+                    if w.op.is_some() {
+                        return Err(Unknown::runtime(
+                            text,
+                            format!("`{text}` is updated while running"),
+                        ));
+                    }
+                    self.record(
+                        w.span.file,
+                        w.span.line,
+                        format!("{inner_place} = {}", w.value),
+                    );
+                    match self.eval(&w.value, &scope) {
+                        Ok(v) => push_unique(&mut values, v.convert(&ty, self.target())),
+                        Err(u) => unknown = Some(u),
+                    }
+                }
+            }
+            // The initialiser of the global the field belongs to.
+            if let Some(global) = self.program.global(&base_text).cloned() {
+                if let Some(init) = &global.init {
+                    if let Some(v) = self.field_initializer(&global, init, field) {
+                        match v {
+                            Ok(v) => {
+                                if direct.is_empty() && values.is_empty() {
+                                    push_unique(&mut values, v.convert(&ty, self.target()));
+                                }
+                            }
+                            Err(u) => unknown = unknown.or(Some(u)),
+                        }
+                    }
+                }
+            }
+        }
+        match values.as_slice() {
+            [one] if unknown.is_none() => Ok(*one),
+            [] => Err(unknown.unwrap_or_else(|| {
+                Unknown::runtime(
+                    text,
+                    format!("no constant assignment to `{text}` was found"),
+                )
+            })),
+            [_] => Err(unknown.unwrap_or_else(|| Unknown::new("unknown"))),
+            _ => Err(Unknown::runtime(
+                text,
+                format!("`{text}` is assigned {} different values", values.len()),
+            )),
+        }
+    }
+
+    fn field_initializer(
+        &mut self,
+        global: &LocalDecl,
+        init: &Initializer,
+        field: &str,
+    ) -> Option<Result<Num, Unknown>> {
+        let Initializer::List(items) = init else {
+            return None;
+        };
+        let fields = self.program.struct_fields(&global.ty)?.to_vec();
+        let position = fields.iter().position(|f| f.name == field)?;
+        let mut index = 0;
+        for (designator, item) in items {
+            let this = match designator {
+                Some(name) => fields.iter().position(|f| &f.name == name)?,
+                None => index,
+            };
+            index = this + 1;
+            if this == position {
+                if let Initializer::Expr(e) = item {
+                    self.record(
+                        global.span.file,
+                        global.span.line,
+                        format!("{} {} = {{ .{field} = {e} }}", global.ty, global.name),
+                    );
+                    return Some(self.eval(e, &Scope::default()));
+                }
+                return None;
+            }
+        }
+        None
+    }
+
+    /// The declared type of a place, where the index can tell it.
+    pub fn place_type(&self, expr: &Expr) -> Option<CType> {
+        place_type(self.program, None, expr)
+    }
+
+    fn call(&mut self, callee: &Expr, args: &[Expr], scope: &Scope) -> Result<Num, Unknown> {
+        let ExprKind::Ident(name) = &callee.kind else {
+            return Err(Unknown::new(format!("call through `{callee}`")));
+        };
+        if let Some(v) = self.math_call(name, args, scope)? {
+            return Ok(v);
+        }
+        if let Some(m) = self.program.active_macro(name) {
+            if let Some(params) = &m.params {
+                let m = m.clone();
+                let params = params.clone();
+                return self.guarded(format!("macro {name}"), |ev| {
+                    let text = substitute_macro(&m.body, &params, args);
+                    ev.record(
+                        m.span.file,
+                        m.span.line,
+                        format!("#define {}({}) {}", m.name, params.join(", "), m.body),
+                    );
+                    let Some(body) = crate::parse::parse_expression(&text, callee.span) else {
+                        return Err(Unknown::new(format!(
+                            "macro {name} does not expand to an expression"
+                        )));
+                    };
+                    ev.eval(&body, scope)
+                });
+            }
+        }
+        let Some(f) = self.program.function_by_name(name) else {
+            return Err(Unknown::new(format!(
+                "{name}() is not defined in the scanned files"
+            )));
+        };
+        let function = self.program.function(f).clone();
+        self.guarded(format!("function {name}"), |ev| {
+            let mut inner = Scope::in_function(f);
+            for (p, a) in function.params.iter().zip(args) {
+                let step = ev.record_named(
+                    callee.span.file,
+                    callee.span.line,
+                    format!("{name}: {} = {a}", p.name),
+                    Some(&p.name),
+                );
+                let pty = ev.program.resolve_type(&p.ty);
+                let v = ev.eval(a, scope).map(|v| v.convert(&pty, ev.target()));
+                ev.fill(step, &v);
+                inner.values.insert(p.name.clone(), v?);
+            }
+            ev.record(
+                function.name_span.file,
+                function.name_span.line,
+                format!(
+                    "{}({})",
+                    function.name,
+                    function
+                        .params
+                        .iter()
+                        .map(|p| p.name.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            );
+            let returns = ev.program.resolve_type(&function.returns);
+            ev.run_body(&function.body, &mut inner)?
+                .map(|v| v.convert(&returns, ev.target()))
+                .ok_or_else(|| Unknown::new(format!("{name}() returns no constant")))
+        })
+    }
+
+    /// Runs a helper function's straight-line body: declarations, assignments to locals,
+    /// and the first return.
+    fn run_body(&mut self, body: &[Stmt], scope: &mut Scope) -> Result<Option<Num>, Unknown> {
+        for stmt in body {
+            match stmt {
+                Stmt::Decl(decls) => {
+                    for d in decls {
+                        if let Some(Initializer::Expr(e)) = &d.init {
+                            let v = self.eval(e, scope)?;
+                            let ty = self.program.resolve_type(&d.ty);
+                            scope
+                                .values
+                                .insert(d.name.clone(), v.convert(&ty, self.target()));
+                        }
+                    }
+                }
+                Stmt::Expr(Expr {
+                    kind: ExprKind::Assign { op, target, value },
+                    ..
+                }) => {
+                    let ExprKind::Ident(name) = &target.kind else {
+                        return Err(Unknown::new("helper writes outside its locals"));
+                    };
+                    let mut v = self.eval(value, scope)?;
+                    if let Some(op) = op {
+                        let old = scope
+                            .values
+                            .get(name)
+                            .copied()
+                            .ok_or_else(|| Unknown::new("helper reads an unset local"))?;
+                        v = num::binary(*op, old, v, self.target())?.value;
+                    }
+                    scope.values.insert(name.clone(), v);
+                }
+                Stmt::Return(Some(e), _) => return Ok(Some(self.eval(e, scope)?)),
+                Stmt::Block(inner) => {
+                    if let Some(v) = self.run_body(inner, scope)? {
+                        return Ok(Some(v));
+                    }
+                }
+                _ => return Err(Unknown::new("helper body has control flow")),
+            }
+        }
+        Ok(None)
+    }
+
+    fn math_call(
+        &mut self,
+        name: &str,
+        args: &[Expr],
+        scope: &Scope,
+    ) -> Result<Option<Num>, Unknown> {
+        let base = name.strip_suffix('f').filter(|b| is_math(b));
+        let (base, single) = match base {
+            Some(b) => (b, true),
+            None if is_math(name) => (name, false),
+            None => return Ok(None),
+        };
+        if self.program.function_by_name(name).is_some() || self.program.is_macro(name) {
+            return Ok(None);
+        }
+        let mut values = Vec::new();
+        for a in args {
+            values.push(self.eval(a, scope)?.as_f64());
+        }
+        let arg = |i: usize| {
+            values
+                .get(i)
+                .copied()
+                .ok_or_else(|| Unknown::new(format!("{name}() needs more arguments")))
+        };
+        let v = match base {
+            "exp" => arg(0)?.exp(),
+            "log" => arg(0)?.ln(),
+            "log10" => arg(0)?.log10(),
+            "log2" => arg(0)?.log2(),
+            "sqrt" => arg(0)?.sqrt(),
+            "sin" => arg(0)?.sin(),
+            "cos" => arg(0)?.cos(),
+            "tan" => arg(0)?.tan(),
+            "atan" => arg(0)?.atan(),
+            "fabs" => arg(0)?.abs(),
+            "floor" => arg(0)?.floor(),
+            "ceil" => arg(0)?.ceil(),
+            "round" => arg(0)?.round(),
+            "pow" => arg(0)?.powf(arg(1)?),
+            "fmin" => arg(0)?.min(arg(1)?),
+            "fmax" => arg(0)?.max(arg(1)?),
+            "exp2" => arg(0)?.exp2(),
+            "expm1" => arg(0)?.exp_m1(),
+            _ => return Ok(None),
+        };
+        if !v.is_finite() {
+            return Err(Unknown::new(format!("{name}() gives no finite value here")));
+        }
+        Ok(Some(Num::Float {
+            value: if single { v as f32 as f64 } else { v },
+            single,
+        }))
+    }
+}
+
+fn push_unique(values: &mut Vec<Num>, v: Num) {
+    if !values.contains(&v) {
+        values.push(v);
+    }
+}
+
+fn is_math(name: &str) -> bool {
+    matches!(
+        name,
+        "exp"
+            | "log"
+            | "log10"
+            | "log2"
+            | "sqrt"
+            | "sin"
+            | "cos"
+            | "tan"
+            | "atan"
+            | "fabs"
+            | "floor"
+            | "ceil"
+            | "round"
+            | "pow"
+            | "fmin"
+            | "fmax"
+            | "exp2"
+            | "expm1"
+    )
+}
+
+/// C integer literal typing (C11 6.4.4.1p5), simplified to the first type that holds it.
+fn int_literal(value: u128, unsigned: bool, long: bool, target: Target) -> Num {
+    let candidates: Vec<(u8, bool)> = match (unsigned, long) {
+        (false, false) => vec![(target.int_bits, true), (32, true), (64, true), (64, false)],
+        (true, false) => vec![(target.int_bits, false), (32, false), (64, false)],
+        (false, true) => vec![(32, true), (64, true), (64, false)],
+        (true, true) => vec![(32, false), (64, false)],
+    };
+    for (bits, signed) in candidates {
+        let ty = IntType { bits, signed };
+        let (_, hi) = num::int_range(ty);
+        if (value as i128) <= hi && value <= i128::MAX as u128 {
+            return Num::Int {
+                value: value as i128,
+                ty,
+            };
+        }
+    }
+    Num::int(
+        value as i128,
+        IntType {
+            bits: 64,
+            signed: false,
+        },
+    )
+}
+
+/// Replaces a function-like macro's parameters by the argument texts, parenthesised only
+/// where the macro body already does (the text is parsed again, so this keeps C meaning).
+pub fn substitute_macro(body: &str, params: &[String], args: &[Expr]) -> String {
+    let text = body.replace("##", "");
+    crate::index::map_identifiers(&text, |ident| {
+        params
+            .iter()
+            .position(|p| p == ident)
+            .and_then(|i| args.get(i))
+            .map(|a| format!("({a})"))
+    })
+}
+
+/// The declared type of a place expression in a function (locals, parameters, globals,
+/// struct fields through `.` and `->`, array elements).
+pub fn place_type(program: &Program, function: Option<FuncRef>, expr: &Expr) -> Option<CType> {
+    let ty = match &expr.kind {
+        ExprKind::Ident(name) => {
+            let local = function.and_then(|f| local_type(program.function(f), name));
+            match local {
+                Some(t) => t,
+                None => program.global(name)?.ty.clone(),
+            }
+        }
+        ExprKind::Field { base, arrow, field } => {
+            let mut base_ty = program.resolve_type(&place_type(program, function, base)?);
+            if *arrow {
+                base_ty = match base_ty {
+                    CType::Pointer(inner) | CType::Array(inner, _) => *inner,
+                    other => other,
+                };
+            }
+            let fields = program.struct_fields(&base_ty)?;
+            fields.iter().find(|f| &f.name == field)?.ty.clone()
+        }
+        ExprKind::Index { base, .. } => {
+            match program.resolve_type(&place_type(program, function, base)?) {
+                CType::Array(inner, _) | CType::Pointer(inner) => *inner,
+                _ => return None,
+            }
+        }
+        ExprKind::Unary {
+            op: UnaryOp::Deref,
+            arg,
+        } => match program.resolve_type(&place_type(program, function, arg)?) {
+            CType::Pointer(inner) | CType::Array(inner, _) => *inner,
+            _ => return None,
+        },
+        ExprKind::Unary {
+            op: UnaryOp::AddrOf,
+            arg,
+        } => CType::Pointer(Box::new(place_type(program, function, arg)?)),
+        ExprKind::Cast { ty, .. } => ty.clone(),
+        _ => return None,
+    };
+    Some(program.resolve_type(&ty))
+}
+
+/// The type of a local variable or parameter of `function`.
+pub fn local_type(function: &Function, name: &str) -> Option<CType> {
+    if let Some(p) = function.params.iter().find(|p| p.name == name) {
+        return Some(p.ty.clone());
+    }
+    let mut found = None;
+    find_local_decl(&function.body, name, &mut found);
+    found.map(|d| d.ty)
+}
+
+/// The declaration of a local variable in a function body.
+pub fn find_local(function: &Function, name: &str) -> Option<LocalDecl> {
+    let mut found = None;
+    find_local_decl(&function.body, name, &mut found);
+    found
+}
+
+fn find_local_decl(stmts: &[Stmt], name: &str, found: &mut Option<LocalDecl>) {
+    for stmt in stmts {
+        if found.is_some() {
+            return;
+        }
+        match stmt {
+            Stmt::Decl(decls) => {
+                if let Some(d) = decls.iter().find(|d| d.name == name) {
+                    *found = Some(d.clone());
+                }
+            }
+            Stmt::Block(items) => find_local_decl(items, name, found),
+            Stmt::If {
+                then, otherwise, ..
+            } => {
+                find_local_decl(std::slice::from_ref(then), name, found);
+                if let Some(o) = otherwise {
+                    find_local_decl(std::slice::from_ref(o), name, found);
+                }
+            }
+            Stmt::Loop { init, body, .. } => {
+                find_local_decl(init, name, found);
+                find_local_decl(std::slice::from_ref(body), name, found);
+            }
+            Stmt::Switch { body, .. } => find_local_decl(std::slice::from_ref(body), name, found),
+            Stmt::Conditional(branches) => {
+                for (_, b) in branches {
+                    find_local_decl(b, name, found);
+                }
+            }
+            _ => {}
+        }
+    }
+}
+
+impl crate::index::CallSite {
+    /// The call as C text.
+    pub fn to_string_call(&self) -> String {
+        let args: Vec<String> = self.args.iter().map(|a| a.to_string()).collect();
+        format!("{}({})", self.callee, args.join(", "))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::index::ProgramOptions;
+    use crate::parse::{parse_expression, parse_file};
+
+    fn program(src: &str) -> Program {
+        let ir = parse_file(FileId(0), src.as_bytes());
+        Program::build(vec![ir], vec!["a.c".into()], ProgramOptions::default())
+    }
+
+    fn value(p: &Program, text: &str) -> Result<Num, Unknown> {
+        let e = parse_expression(text, Span::default()).unwrap();
+        Evaluator::new(p).eval(&e, &Scope::default())
+    }
+
+    #[test]
+    fn define_chains_and_enums_resolve() {
+        let p = program(
+            "#define RATE_HZ 500\n#define DT (1.0f/RATE_HZ)\nenum { SHIFT_A = 2, SHIFT_B };\n",
+        );
+        assert_eq!(
+            value(&p, "DT").unwrap().as_f64(),
+            (1.0f32 / 500.0f32) as f64
+        );
+        assert_eq!(value(&p, "SHIFT_B").unwrap().as_f64(), 3.0);
+    }
+
+    #[test]
+    fn integer_division_before_conversion_gives_zero() {
+        // Source: C11 6.5.5p6 and 6.3.1.4: 1/8 is computed in int, then converted.
+        let p = program("float a = 1/8;\n");
+        assert_eq!(value(&p, "a").unwrap().as_f64(), 0.0);
+    }
+
+    #[test]
+    fn init_function_fields_resolve_through_pointer_params() {
+        let src = "typedef struct { float k; float y; } lpf_t;\nstatic lpf_t g_oven;\n\
+                   static float gain(float fc, float dt) { return dt / (1.0f/(2.0f*3.14159f*fc) + dt); }\n\
+                   void lpf_init(lpf_t *f, float k) { f->k = k; f->y = 0; }\n\
+                   void setup(void) { lpf_init(&g_oven, gain(5.0f, 0.001f)); }\n";
+        let p = program(src);
+        let mut ev = Evaluator::new(&p);
+        let e = parse_expression("g_oven.k", Span::default()).unwrap();
+        let k = ev.eval(&e, &Scope::default()).unwrap().as_f64();
+        // The fixture's rounded pi on purpose: firmware writes it that way.
+        #[allow(clippy::approx_constant)]
+        let rc = 1.0f32 / (2.0f32 * 3.14159f32 * 5.0f32);
+        let expect = 0.001f32 / (rc + 0.001f32);
+        assert!((k - expect as f64).abs() < 1e-7, "{k} vs {expect}");
+        assert!(ev.chain.len() >= 3, "{:?}", ev.chain);
+    }
+
+    #[test]
+    fn cycles_and_parameters_are_unknown_not_loops() {
+        let p = program("#define A (B+1)\n#define B (A+1)\nvoid f(float dt) { }\n");
+        assert!(value(&p, "A").is_err());
+        assert!(value(&p, "1/0").is_err());
+        assert!(value(&p, "1 << 40").is_err());
+    }
+
+    #[test]
+    fn math_functions_fold() {
+        let p = program("#define FC 2.0\n#define DT 0.01\n");
+        let v = value(&p, "1 - exp(-2*M_PI*FC*DT)").unwrap().as_f64();
+        assert!((v - (1.0 - (-2.0 * std::f64::consts::PI * 0.02f64).exp())).abs() < 1e-15);
+    }
+}

@@ -1,0 +1,693 @@
+//! The whole program: every file's IR gathered into tables that answer "where is this
+//! name defined, and what is written to this place".
+//!
+//! It holds macros (with the `#if` branch each sits in and whether that branch is built
+//! with the active defines), enum constants, globals, struct definitions, typedefs,
+//! functions, every assignment in every function body, and every call. It evaluates
+//! preprocessor conditions itself, with a deliberately small lookup (command-line defines
+//! and unconditional macros), so that it never depends on the evaluator it serves.
+//! It knows nothing of smoothers; `recognise` asks it questions.
+
+use crate::eval::num::Target;
+use crate::ir::*;
+use std::collections::{BTreeMap, HashMap, HashSet};
+
+/// A function by position: file index and function index within that file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct FuncRef {
+    pub file: usize,
+    pub index: usize,
+}
+
+/// An assignment found in a function body: `target op= value`.
+#[derive(Debug, Clone)]
+pub struct Write {
+    pub function: FuncRef,
+    pub target: String,
+    pub op: Option<BinaryOp>,
+    pub value: Expr,
+    pub span: Span,
+}
+
+#[derive(Debug, Clone)]
+pub struct CallSite {
+    pub caller: FuncRef,
+    pub callee: String,
+    pub args: Vec<Expr>,
+    pub span: Span,
+}
+
+/// The analysis options that change what the program means.
+#[derive(Debug, Clone, Default)]
+pub struct ProgramOptions {
+    pub target: Target,
+    /// `-D NAME=VALUE` (or `-D NAME`, which means 1).
+    pub defines: BTreeMap<String, String>,
+}
+
+pub struct Program {
+    pub files: Vec<FileIr>,
+    /// Path of each file relative to the scan root, with '/' separators.
+    pub paths: Vec<String>,
+    pub options: ProgramOptions,
+    macros: HashMap<String, Vec<(usize, usize)>>,
+    macro_active: HashMap<(usize, usize), bool>,
+    enums: HashMap<String, (usize, usize)>,
+    globals: HashMap<String, Vec<(usize, usize)>>,
+    functions: HashMap<String, Vec<FuncRef>>,
+    structs: HashMap<String, (usize, usize)>,
+    typedefs: HashMap<String, CType>,
+    writes: Vec<Write>,
+    writes_by_target: HashMap<String, Vec<usize>>,
+    calls: Vec<CallSite>,
+    calls_by_callee: HashMap<String, Vec<usize>>,
+}
+
+impl Program {
+    pub fn build(files: Vec<FileIr>, paths: Vec<String>, options: ProgramOptions) -> Program {
+        let mut program = Program {
+            files,
+            paths,
+            options,
+            macros: HashMap::new(),
+            macro_active: HashMap::new(),
+            enums: HashMap::new(),
+            globals: HashMap::new(),
+            functions: HashMap::new(),
+            structs: HashMap::new(),
+            typedefs: HashMap::new(),
+            writes: Vec::new(),
+            writes_by_target: HashMap::new(),
+            calls: Vec::new(),
+            calls_by_callee: HashMap::new(),
+        };
+        for (fi, file) in program.files.iter().enumerate() {
+            for (i, m) in file.macros.iter().enumerate() {
+                program
+                    .macros
+                    .entry(m.name.clone())
+                    .or_default()
+                    .push((fi, i));
+            }
+            for (i, e) in file.enums.iter().enumerate() {
+                program.enums.entry(e.name.clone()).or_insert((fi, i));
+            }
+            for (i, g) in file.globals.iter().enumerate() {
+                program
+                    .globals
+                    .entry(g.decl.name.clone())
+                    .or_default()
+                    .push((fi, i));
+            }
+            for (i, s) in file.structs.iter().enumerate() {
+                program.structs.entry(s.name.clone()).or_insert((fi, i));
+            }
+            for (name, ty) in &file.typedefs {
+                program
+                    .typedefs
+                    .entry(name.clone())
+                    .or_insert_with(|| ty.clone());
+            }
+            for (i, f) in file.functions.iter().enumerate() {
+                if f.name == "tauscan_snippet" {
+                    continue;
+                }
+                program
+                    .functions
+                    .entry(f.name.clone())
+                    .or_default()
+                    .push(FuncRef { file: fi, index: i });
+            }
+        }
+        let mut active = HashMap::new();
+        for refs in program.macros.values() {
+            for &(fi, i) in refs {
+                let cond = &program.files[fi].macros[i].condition;
+                active.insert((fi, i), program.condition_holds(cond));
+            }
+        }
+        program.macro_active = active;
+        program.collect_writes_and_calls();
+        program
+    }
+
+    fn collect_writes_and_calls(&mut self) {
+        let mut writes = Vec::new();
+        let mut calls = Vec::new();
+        for (fi, file) in self.files.iter().enumerate() {
+            for (i, f) in file.functions.iter().enumerate() {
+                let fref = FuncRef { file: fi, index: i };
+                visit_stmts(&f.body, &mut |e| match &e.kind {
+                    ExprKind::Assign { op, target, value } => writes.push(Write {
+                        function: fref,
+                        target: canonical_place(target),
+                        op: *op,
+                        value: (**value).clone(),
+                        span: e.span,
+                    }),
+                    ExprKind::IncDec { target, increment } => writes.push(Write {
+                        function: fref,
+                        target: canonical_place(target),
+                        op: Some(if *increment {
+                            BinaryOp::Add
+                        } else {
+                            BinaryOp::Sub
+                        }),
+                        value: Expr::new(
+                            ExprKind::Int {
+                                value: 1,
+                                unsigned: false,
+                                long: false,
+                            },
+                            e.span,
+                        ),
+                        span: e.span,
+                    }),
+                    ExprKind::Call { callee, args } => {
+                        if let ExprKind::Ident(name) = &callee.kind {
+                            calls.push(CallSite {
+                                caller: fref,
+                                callee: name.clone(),
+                                args: args.clone(),
+                                span: e.span,
+                            });
+                        }
+                    }
+                    _ => {}
+                });
+            }
+        }
+        for (i, w) in writes.iter().enumerate() {
+            self.writes_by_target
+                .entry(w.target.clone())
+                .or_default()
+                .push(i);
+        }
+        for (i, c) in calls.iter().enumerate() {
+            self.calls_by_callee
+                .entry(c.callee.clone())
+                .or_default()
+                .push(i);
+        }
+        self.writes = writes;
+        self.calls = calls;
+    }
+
+    pub fn function(&self, f: FuncRef) -> &Function {
+        &self.files[f.file].functions[f.index]
+    }
+
+    pub fn functions(&self) -> impl Iterator<Item = FuncRef> + '_ {
+        self.files.iter().enumerate().flat_map(|(fi, file)| {
+            (0..file.functions.len()).map(move |i| FuncRef { file: fi, index: i })
+        })
+    }
+
+    pub fn function_by_name(&self, name: &str) -> Option<FuncRef> {
+        let refs = self.functions.get(name)?;
+        // Prefer a definition whose preprocessor branch is built.
+        refs.iter()
+            .copied()
+            .find(|f| self.condition_holds(&self.function(*f).condition))
+            .or_else(|| refs.first().copied())
+    }
+
+    pub fn path(&self, file: FileId) -> &str {
+        self.paths
+            .get(file.0 as usize)
+            .map(String::as_str)
+            .unwrap_or("?")
+    }
+
+    /// The definition of a macro that the active defines select, if any.
+    pub fn active_macro(&self, name: &str) -> Option<&MacroDef> {
+        let refs = self.macros.get(name)?;
+        refs.iter()
+            .rev()
+            .find(|r| self.macro_active.get(r).copied().unwrap_or(false))
+            .map(|&(fi, i)| &self.files[fi].macros[i])
+    }
+
+    /// Every definition of a macro, active or not.
+    pub fn macro_definitions(&self, name: &str) -> Vec<&MacroDef> {
+        self.macros
+            .get(name)
+            .map(|refs| {
+                refs.iter()
+                    .map(|&(fi, i)| &self.files[fi].macros[i])
+                    .collect()
+            })
+            .unwrap_or_default()
+    }
+
+    pub fn is_macro(&self, name: &str) -> bool {
+        self.macros.contains_key(name)
+    }
+
+    pub fn enum_const(&self, name: &str) -> Option<&EnumConst> {
+        self.enums
+            .get(name)
+            .map(|&(fi, i)| &self.files[fi].enums[i])
+    }
+
+    pub fn enum_const_in(&self, name: &str) -> Option<(FileId, &EnumConst)> {
+        self.enums
+            .get(name)
+            .map(|&(fi, i)| (self.files[fi].file, &self.files[fi].enums[i]))
+    }
+
+    /// The definition of a global: the one with an initialiser if there is one (an
+    /// `extern` declaration carries none).
+    pub fn global(&self, name: &str) -> Option<&LocalDecl> {
+        let refs = self.globals.get(name)?;
+        let decls: Vec<&GlobalDecl> = refs
+            .iter()
+            .map(|&(fi, i)| &self.files[fi].globals[i])
+            .filter(|g| self.condition_holds(&g.condition))
+            .collect();
+        decls
+            .iter()
+            .find(|g| g.decl.init.is_some())
+            .or_else(|| decls.first())
+            .map(|g| &g.decl)
+    }
+
+    pub fn struct_def(&self, name: &str) -> Option<&StructDef> {
+        self.structs
+            .get(name)
+            .map(|&(fi, i)| &self.files[fi].structs[i])
+    }
+
+    /// Follows typedef names to the type they stand for.
+    pub fn resolve_type(&self, ty: &CType) -> CType {
+        let mut current = ty.clone();
+        for _ in 0..16 {
+            match &current {
+                CType::Named(name) => match self.typedefs.get(name) {
+                    Some(next) => current = next.clone(),
+                    None => return current,
+                },
+                CType::Pointer(inner) => return CType::Pointer(Box::new(self.resolve_type(inner))),
+                CType::Array(inner, n) => {
+                    return CType::Array(Box::new(self.resolve_type(inner)), n.clone())
+                }
+                _ => return current,
+            }
+        }
+        current
+    }
+
+    /// The fields of a struct type (after typedefs), if known.
+    pub fn struct_fields(&self, ty: &CType) -> Option<&[Param]> {
+        match self.resolve_type(ty) {
+            CType::Struct(name) => self.struct_def(&name).map(|s| s.fields.as_slice()),
+            _ => None,
+        }
+    }
+
+    pub fn writes_to(&self, place: &str) -> impl Iterator<Item = &Write> {
+        self.writes_by_target
+            .get(place)
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.writes[i])
+    }
+
+    pub fn calls_to(&self, callee: &str) -> impl Iterator<Item = &CallSite> {
+        self.calls_by_callee
+            .get(callee)
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.calls[i])
+    }
+
+    pub fn calls(&self) -> &[CallSite] {
+        &self.calls
+    }
+
+    /// Whether a place is a counter: stepped by a constant (`n++`, `n += 1`, `n = n + 1`).
+    pub fn is_counter(&self, place: &str) -> bool {
+        self.writes_to(place).any(|w| {
+            let constant_step = |e: &Expr| matches!(e.kind, ExprKind::Int { .. });
+            match (&w.op, &w.value.kind) {
+                (Some(BinaryOp::Add | BinaryOp::Sub), _) => constant_step(&w.value),
+                (
+                    None,
+                    ExprKind::Binary {
+                        op: BinaryOp::Add,
+                        lhs,
+                        rhs,
+                    },
+                ) => lhs.to_string() == place && constant_step(rhs),
+                _ => false,
+            }
+        })
+    }
+
+    /// Whether a preprocessor condition holds with the active defines.
+    pub fn condition_holds(&self, cond: &Condition) -> bool {
+        cond.levels.iter().all(|level| {
+            level.earlier.iter().all(|b| !self.branch_holds(b))
+                && (level.branch == CondBranch::Else || self.branch_holds(&level.branch))
+        })
+    }
+
+    fn is_defined(&self, name: &str) -> bool {
+        self.options.defines.contains_key(name)
+            || self.macros.get(name).is_some_and(|refs| {
+                refs.iter()
+                    .any(|&(fi, i)| self.files[fi].macros[i].condition.is_unconditional())
+            })
+    }
+
+    fn branch_holds(&self, branch: &CondBranch) -> bool {
+        match branch {
+            CondBranch::Ifdef(name) => self.is_defined(name),
+            CondBranch::Ifndef(name) => !self.is_defined(name),
+            CondBranch::Else => true,
+            CondBranch::If(text) => self.eval_pp_condition(text),
+        }
+    }
+
+    /// Evaluates an `#if` expression: `defined` is answered first, then identifiers take
+    /// their command-line or unconditional macro values (recursively, bounded), and any
+    /// other identifier is 0 as C11 6.10.1p4 says.
+    fn eval_pp_condition(&self, text: &str) -> bool {
+        let replaced = replace_defined(text, |name| self.is_defined(name));
+        let mut seen = HashSet::new();
+        let expanded = self.expand_pp_identifiers(&replaced, &mut seen, 0);
+        let Some(expr) = crate::parse::parse_expression(&expanded, Span::default()) else {
+            return false;
+        };
+        pp_eval(&expr).map(|v| v != 0).unwrap_or(false)
+    }
+
+    fn expand_pp_identifiers(&self, text: &str, seen: &mut HashSet<String>, depth: u32) -> String {
+        if depth > 16 {
+            return "0".into();
+        }
+        map_identifiers(text, |ident| {
+            if let Some(v) = self.options.defines.get(ident) {
+                return Some(format!("({})", if v.is_empty() { "1" } else { v }));
+            }
+            let def = self.macros.get(ident).and_then(|refs| {
+                refs.iter()
+                    .map(|&(fi, i)| &self.files[fi].macros[i])
+                    .find(|m| m.condition.is_unconditional() && m.params.is_none())
+            });
+            match def {
+                Some(m) if seen.insert(ident.to_string()) => {
+                    let inner = self.expand_pp_identifiers(&m.body, seen, depth + 1);
+                    seen.remove(ident);
+                    Some(format!("({inner})"))
+                }
+                _ => Some("0".into()),
+            }
+        })
+    }
+}
+
+/// Text of a place as written, normalised: `(*f).y` and `f->y` are kept distinct, but
+/// spacing and parentheses are not part of the key.
+pub fn canonical_place(expr: &Expr) -> String {
+    expr.to_string()
+}
+
+/// Visits every expression in a statement list, statements in order.
+pub fn visit_stmts<'a>(stmts: &'a [Stmt], visit: &mut dyn FnMut(&'a Expr)) {
+    for stmt in stmts {
+        visit_stmt(stmt, visit);
+    }
+}
+
+fn visit_stmt<'a>(stmt: &'a Stmt, visit: &mut dyn FnMut(&'a Expr)) {
+    match stmt {
+        Stmt::Expr(e) => e.walk(visit),
+        Stmt::Decl(decls) => {
+            for d in decls {
+                if let Some(init) = &d.init {
+                    visit_init(init, visit);
+                }
+            }
+        }
+        Stmt::Block(items) => visit_stmts(items, visit),
+        Stmt::If {
+            cond,
+            then,
+            otherwise,
+        } => {
+            cond.walk(visit);
+            visit_stmt(then, visit);
+            if let Some(o) = otherwise {
+                visit_stmt(o, visit);
+            }
+        }
+        Stmt::Loop {
+            init,
+            cond,
+            step,
+            body,
+            ..
+        } => {
+            visit_stmts(init, visit);
+            if let Some(c) = cond {
+                c.walk(visit);
+            }
+            if let Some(s) = step {
+                s.walk(visit);
+            }
+            visit_stmt(body, visit);
+        }
+        Stmt::Switch { scrutinee, body } => {
+            scrutinee.walk(visit);
+            visit_stmt(body, visit);
+        }
+        Stmt::Return(Some(e), _) => e.walk(visit),
+        Stmt::Conditional(branches) => {
+            for (_, body) in branches {
+                visit_stmts(body, visit);
+            }
+        }
+        Stmt::Return(None, _) | Stmt::Other(_) => {}
+    }
+}
+
+fn visit_init<'a>(init: &'a Initializer, visit: &mut dyn FnMut(&'a Expr)) {
+    match init {
+        Initializer::Expr(e) => e.walk(visit),
+        Initializer::List(items) => {
+            for (_, item) in items {
+                visit_init(item, visit);
+            }
+        }
+    }
+}
+
+/// Calls `f` on each identifier of a C text; `Some(s)` replaces it.
+pub fn map_identifiers(text: &str, mut f: impl FnMut(&str) -> Option<String>) -> String {
+    let mut out = String::with_capacity(text.len());
+    let chars: Vec<char> = text.chars().collect();
+    let mut i = 0;
+    while i < chars.len() {
+        let c = chars[i];
+        if c.is_ascii_digit() {
+            // A number, with its suffix: not an identifier.
+            while i < chars.len() && (chars[i].is_ascii_alphanumeric() || chars[i] == '.') {
+                out.push(chars[i]);
+                i += 1;
+            }
+            continue;
+        }
+        if c == '"' || c == '\'' {
+            let quote = c;
+            out.push(c);
+            i += 1;
+            while i < chars.len() && chars[i] != quote {
+                if chars[i] == '\\' && i + 1 < chars.len() {
+                    out.push(chars[i]);
+                    i += 1;
+                }
+                out.push(chars[i]);
+                i += 1;
+            }
+            if i < chars.len() {
+                out.push(chars[i]);
+                i += 1;
+            }
+            continue;
+        }
+        if c.is_ascii_alphabetic() || c == '_' {
+            let start = i;
+            while i < chars.len() && (chars[i].is_ascii_alphanumeric() || chars[i] == '_') {
+                i += 1;
+            }
+            let ident: String = chars[start..i].iter().collect();
+            match f(&ident) {
+                Some(replacement) => out.push_str(&replacement),
+                None => out.push_str(&ident),
+            }
+            continue;
+        }
+        out.push(c);
+        i += 1;
+    }
+    out
+}
+
+fn replace_defined(text: &str, is_defined: impl Fn(&str) -> bool) -> String {
+    // `defined NAME` and `defined ( NAME )` become 1 or 0 before any other expansion.
+    let tokens: Vec<char> = text.chars().collect();
+    let mut out = String::new();
+    let mut i = 0;
+    while i < tokens.len() {
+        let rest: String = tokens[i..].iter().take(7).collect();
+        let boundary = i == 0 || !(tokens[i - 1].is_ascii_alphanumeric() || tokens[i - 1] == '_');
+        if boundary && rest == "defined" {
+            let mut j = i + 7;
+            while j < tokens.len() && tokens[j].is_whitespace() {
+                j += 1;
+            }
+            let paren = j < tokens.len() && tokens[j] == '(';
+            if paren {
+                j += 1;
+            }
+            while j < tokens.len() && tokens[j].is_whitespace() {
+                j += 1;
+            }
+            let start = j;
+            while j < tokens.len() && (tokens[j].is_ascii_alphanumeric() || tokens[j] == '_') {
+                j += 1;
+            }
+            let name: String = tokens[start..j].iter().collect();
+            if paren {
+                while j < tokens.len() && tokens[j] != ')' {
+                    j += 1;
+                }
+                j += 1;
+            }
+            out.push_str(if is_defined(&name) { " 1 " } else { " 0 " });
+            i = j;
+            continue;
+        }
+        out.push(tokens[i]);
+        i += 1;
+    }
+    out
+}
+
+/// Integer evaluation for `#if` (C11 6.10.1: all arithmetic in intmax_t).
+fn pp_eval(expr: &Expr) -> Option<i128> {
+    Some(match &expr.kind {
+        ExprKind::Int { value, .. } => *value as i128,
+        ExprKind::Ident(_) => 0,
+        ExprKind::Unary { op, arg } => {
+            let v = pp_eval(arg)?;
+            match op {
+                UnaryOp::Neg => v.wrapping_neg(),
+                UnaryOp::Plus => v,
+                UnaryOp::Not => (v == 0) as i128,
+                UnaryOp::BitNot => !v,
+                _ => return None,
+            }
+        }
+        ExprKind::Binary { op, lhs, rhs } => {
+            let a = pp_eval(lhs)?;
+            let b = pp_eval(rhs)?;
+            use BinaryOp::*;
+            match op {
+                Add => a.wrapping_add(b),
+                Sub => a.wrapping_sub(b),
+                Mul => a.wrapping_mul(b),
+                Div => a.checked_div(b)?,
+                Rem => a.checked_rem(b)?,
+                Shl => a.checked_shl(u32::try_from(b).ok()?)?,
+                Shr => a.checked_shr(u32::try_from(b).ok()?)?,
+                BitAnd => a & b,
+                BitOr => a | b,
+                BitXor => a ^ b,
+                And => (a != 0 && b != 0) as i128,
+                Or => (a != 0 || b != 0) as i128,
+                Eq => (a == b) as i128,
+                Ne => (a != b) as i128,
+                Lt => (a < b) as i128,
+                Le => (a <= b) as i128,
+                Gt => (a > b) as i128,
+                Ge => (a >= b) as i128,
+            }
+        }
+        ExprKind::Conditional {
+            cond,
+            then,
+            otherwise,
+        } => {
+            if pp_eval(cond)? != 0 {
+                pp_eval(then)?
+            } else {
+                pp_eval(otherwise)?
+            }
+        }
+        _ => return None,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::parse::parse_file;
+
+    fn program(src: &str, defines: &[(&str, &str)]) -> Program {
+        let ir = parse_file(FileId(0), src.as_bytes());
+        let options = ProgramOptions {
+            defines: defines
+                .iter()
+                .map(|(k, v)| (k.to_string(), v.to_string()))
+                .collect(),
+            ..ProgramOptions::default()
+        };
+        Program::build(vec![ir], vec!["a.c".into()], options)
+    }
+
+    #[test]
+    fn preprocessor_branches_follow_defines() {
+        // Source: C11 6.10.1 (conditional inclusion).
+        let src = "#ifdef KILN_FAST\n#define K 3\n#elif BOARD_REV >= 2\n#define K 4\n#else\n#define K 5\n#endif\n";
+        assert_eq!(program(src, &[]).active_macro("K").unwrap().body, "5");
+        assert_eq!(
+            program(src, &[("KILN_FAST", "")])
+                .active_macro("K")
+                .unwrap()
+                .body,
+            "3"
+        );
+        assert_eq!(
+            program(src, &[("BOARD_REV", "2")])
+                .active_macro("K")
+                .unwrap()
+                .body,
+            "4"
+        );
+    }
+
+    #[test]
+    fn include_guards_do_not_hide_their_contents() {
+        let src = "#ifndef VENT_H\n#define VENT_H\n#define VENT_SHIFT 4\n#endif\n";
+        assert_eq!(
+            program(src, &[]).active_macro("VENT_SHIFT").unwrap().body,
+            "4"
+        );
+    }
+
+    #[test]
+    fn if_zero_is_never_built() {
+        let src = "#if 0\n#define K 1\n#endif\n";
+        assert!(program(src, &[]).active_macro("K").is_none());
+    }
+
+    #[test]
+    fn writes_and_calls_are_indexed() {
+        let src = "struct f { float k; };\nstatic struct f g;\nvoid init(void) { g.k = 0.5f; go(&g, 1); }\n";
+        let p = program(src, &[]);
+        assert_eq!(p.writes_to("g.k").count(), 1);
+        assert_eq!(p.calls_to("go").count(), 1);
+    }
+}

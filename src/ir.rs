@@ -1,0 +1,650 @@
+//! The project's own typed picture of a C file: the parts tauscan reasons about.
+//!
+//! `parse` lowers tree-sitter trees into these types; everything downstream (index, eval,
+//! recognise) works on them alone, so no other module needs to know tree-sitter exists.
+//! The IR keeps spans for every expression and statement so that findings can point at
+//! source lines. It does not try to be a full C AST: constructs that no smoother needs are
+//! kept as `Other`/`Opaque` with their text, which is enough to say what was not understood.
+
+use std::fmt;
+
+/// Index of a file in the scan, assigned by `walk` in a stable order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
+pub struct FileId(pub u32);
+
+/// A byte range in one file, with the 1-based line and column of its start.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub struct Span {
+    pub file: FileId,
+    pub start: u32,
+    pub end: u32,
+    pub line: u32,
+    pub column: u32,
+}
+
+/// Integer type as C sees it: width in bits and signedness.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct IntType {
+    pub bits: u8,
+    pub signed: bool,
+}
+
+/// The types tauscan distinguishes. Widths of `int`/`long` depend on the target, so the
+/// lowering records the spelling (`Int`, `Long`...) and the evaluator maps it to bits.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CType {
+    /// An integer type whose width is fixed by its name (`int16_t`, `uint8_t`, `char`).
+    FixedInt(IntType),
+    /// `int` / `unsigned int` (and `short` treated as 16, `long` as 32, `long long` as 64
+    /// are fixed); `int`'s width is the target's.
+    PlainInt {
+        signed: bool,
+    },
+    Float,
+    Double,
+    Bool,
+    Void,
+    Struct(String),
+    Pointer(Box<CType>),
+    /// Element type and the size as written (a literal, a macro, an expression).
+    Array(Box<CType>, Option<Box<Expr>>),
+    /// A typedef name not resolved at lowering time (resolved by `index`).
+    Named(String),
+    Unknown(String),
+}
+
+impl CType {
+    pub fn is_float(&self) -> bool {
+        matches!(self, CType::Float | CType::Double)
+    }
+    pub fn is_integer(&self) -> bool {
+        matches!(
+            self,
+            CType::FixedInt(_) | CType::PlainInt { .. } | CType::Bool
+        )
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum BinaryOp {
+    Add,
+    Sub,
+    Mul,
+    Div,
+    Rem,
+    Shl,
+    Shr,
+    BitAnd,
+    BitOr,
+    BitXor,
+    And,
+    Or,
+    Eq,
+    Ne,
+    Lt,
+    Le,
+    Gt,
+    Ge,
+}
+
+impl BinaryOp {
+    pub fn text(self) -> &'static str {
+        use BinaryOp::*;
+        match self {
+            Add => "+",
+            Sub => "-",
+            Mul => "*",
+            Div => "/",
+            Rem => "%",
+            Shl => "<<",
+            Shr => ">>",
+            BitAnd => "&",
+            BitOr => "|",
+            BitXor => "^",
+            And => "&&",
+            Or => "||",
+            Eq => "==",
+            Ne => "!=",
+            Lt => "<",
+            Le => "<=",
+            Gt => ">",
+            Ge => ">=",
+        }
+    }
+    pub fn from_text(text: &str) -> Option<BinaryOp> {
+        use BinaryOp::*;
+        Some(match text {
+            "+" => Add,
+            "-" => Sub,
+            "*" => Mul,
+            "/" => Div,
+            "%" => Rem,
+            "<<" => Shl,
+            ">>" => Shr,
+            "&" => BitAnd,
+            "|" => BitOr,
+            "^" => BitXor,
+            "&&" => And,
+            "||" => Or,
+            "==" => Eq,
+            "!=" => Ne,
+            "<" => Lt,
+            "<=" => Le,
+            ">" => Gt,
+            ">=" => Ge,
+            _ => return None,
+        })
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum UnaryOp {
+    Neg,
+    Plus,
+    Not,
+    BitNot,
+    Deref,
+    AddrOf,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Expr {
+    pub kind: ExprKind,
+    pub span: Span,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum ExprKind {
+    /// An integer literal: its value and the type its suffix and size give it.
+    Int {
+        value: u128,
+        unsigned: bool,
+        long: bool,
+    },
+    Float {
+        value: f64,
+        single: bool,
+    },
+    Ident(String),
+    Field {
+        base: Box<Expr>,
+        arrow: bool,
+        field: String,
+    },
+    Index {
+        base: Box<Expr>,
+        index: Box<Expr>,
+    },
+    Unary {
+        op: UnaryOp,
+        arg: Box<Expr>,
+    },
+    Binary {
+        op: BinaryOp,
+        lhs: Box<Expr>,
+        rhs: Box<Expr>,
+    },
+    /// `target op= value`; `op` is None for plain `=`.
+    Assign {
+        op: Option<BinaryOp>,
+        target: Box<Expr>,
+        value: Box<Expr>,
+    },
+    /// `x++`, `--x`: `increment` tells which.
+    IncDec {
+        target: Box<Expr>,
+        increment: bool,
+    },
+    Cast {
+        ty: CType,
+        arg: Box<Expr>,
+    },
+    Call {
+        callee: Box<Expr>,
+        args: Vec<Expr>,
+    },
+    Conditional {
+        cond: Box<Expr>,
+        then: Box<Expr>,
+        otherwise: Box<Expr>,
+    },
+    Comma(Vec<Expr>),
+    /// Anything else (sizeof, strings, compound literals...), kept as its text.
+    Opaque(String),
+}
+
+impl Expr {
+    pub fn new(kind: ExprKind, span: Span) -> Expr {
+        Expr { kind, span }
+    }
+
+    /// Calls `visit` on this expression and every sub-expression, parents first.
+    pub fn walk<'a>(&'a self, visit: &mut dyn FnMut(&'a Expr)) {
+        visit(self);
+        match &self.kind {
+            ExprKind::Field { base, .. } => base.walk(visit),
+            ExprKind::Index { base, index } => {
+                base.walk(visit);
+                index.walk(visit);
+            }
+            ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => arg.walk(visit),
+            ExprKind::Binary { lhs, rhs, .. } => {
+                lhs.walk(visit);
+                rhs.walk(visit);
+            }
+            ExprKind::Assign { target, value, .. } => {
+                target.walk(visit);
+                value.walk(visit);
+            }
+            ExprKind::IncDec { target, .. } => target.walk(visit),
+            ExprKind::Call { callee, args } => {
+                callee.walk(visit);
+                for arg in args {
+                    arg.walk(visit);
+                }
+            }
+            ExprKind::Conditional {
+                cond,
+                then,
+                otherwise,
+            } => {
+                cond.walk(visit);
+                then.walk(visit);
+                otherwise.walk(visit);
+            }
+            ExprKind::Comma(items) => {
+                for item in items {
+                    item.walk(visit);
+                }
+            }
+            ExprKind::Int { .. }
+            | ExprKind::Float { .. }
+            | ExprKind::Ident(_)
+            | ExprKind::Opaque(_) => {}
+        }
+    }
+
+    /// True when `other` occurs in this expression (compared as C text, spans ignored).
+    pub fn mentions(&self, other: &Expr) -> bool {
+        let wanted = other.to_string();
+        let mut found = false;
+        self.walk(&mut |e| {
+            if !found && same_place_kind(e, other) && e.to_string() == wanted {
+                found = true;
+            }
+        });
+        found
+    }
+
+    /// The identifier this lvalue is rooted at (`f` in `f->y`, `buf` in `buf[i]`).
+    pub fn root_ident(&self) -> Option<&str> {
+        match &self.kind {
+            ExprKind::Ident(name) => Some(name),
+            ExprKind::Field { base, .. } | ExprKind::Index { base, .. } => base.root_ident(),
+            ExprKind::Unary {
+                op: UnaryOp::Deref,
+                arg,
+            } => arg.root_ident(),
+            ExprKind::Cast { arg, .. } => arg.root_ident(),
+            _ => None,
+        }
+    }
+
+    /// Strips redundant parentheses-like wrappers that carry no meaning for places.
+    pub fn is_place(&self) -> bool {
+        match &self.kind {
+            ExprKind::Ident(_) => true,
+            ExprKind::Field { base, .. } => base.is_place() || base.is_addr_of_place(),
+            ExprKind::Index { base, .. } => base.is_place(),
+            ExprKind::Unary {
+                op: UnaryOp::Deref,
+                arg,
+            } => arg.is_place() || matches!(arg.kind, ExprKind::Binary { .. }),
+            _ => false,
+        }
+    }
+
+    fn is_addr_of_place(&self) -> bool {
+        matches!(&self.kind, ExprKind::Unary { op: UnaryOp::AddrOf, arg } if arg.is_place())
+    }
+}
+
+fn same_place_kind(a: &Expr, b: &Expr) -> bool {
+    std::mem::discriminant(&a.kind) == std::mem::discriminant(&b.kind)
+}
+
+fn precedence(expr: &Expr) -> u8 {
+    match &expr.kind {
+        ExprKind::Comma(_) => 1,
+        ExprKind::Assign { .. } => 2,
+        ExprKind::Conditional { .. } => 3,
+        ExprKind::Binary { op, .. } => {
+            use BinaryOp::*;
+            match op {
+                Or => 4,
+                And => 5,
+                BitOr => 6,
+                BitXor => 7,
+                BitAnd => 8,
+                Eq | Ne => 9,
+                Lt | Le | Gt | Ge => 10,
+                Shl | Shr => 11,
+                Add | Sub => 12,
+                Mul | Div | Rem => 13,
+            }
+        }
+        ExprKind::Unary { .. } | ExprKind::Cast { .. } => 14,
+        _ => 16,
+    }
+}
+
+struct Operand<'a>(&'a Expr, u8);
+
+impl fmt::Display for Operand<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        // Shifts and bit operators bind looser than arithmetic, which readers often
+        // misjudge: print the parentheses there even where C does not need them.
+        let child = precedence(self.0);
+        let readable = (4..=11).contains(&self.1) && (12..=13).contains(&child);
+        if child < self.1 || readable {
+            write!(f, "({})", self.0)
+        } else {
+            write!(f, "{}", self.0)
+        }
+    }
+}
+
+impl fmt::Display for CType {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            CType::FixedInt(t) => write!(f, "{}int{}_t", if t.signed { "" } else { "u" }, t.bits),
+            CType::PlainInt { signed: true } => write!(f, "int"),
+            CType::PlainInt { signed: false } => write!(f, "unsigned"),
+            CType::Float => write!(f, "float"),
+            CType::Double => write!(f, "double"),
+            CType::Bool => write!(f, "bool"),
+            CType::Void => write!(f, "void"),
+            CType::Struct(name) => write!(f, "struct {name}"),
+            CType::Pointer(inner) => write!(f, "{inner} *"),
+            CType::Array(inner, Some(n)) => write!(f, "{inner}[{n}]"),
+            CType::Array(inner, None) => write!(f, "{inner}[]"),
+            CType::Named(name) | CType::Unknown(name) => write!(f, "{name}"),
+        }
+    }
+}
+
+/// Prints the expression back as C, with the parentheses precedence needs. Names and
+/// numbers keep the spelling the lowering recorded, so the text is stable across runs.
+impl fmt::Display for Expr {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let me = precedence(self);
+        match &self.kind {
+            ExprKind::Int {
+                value,
+                unsigned,
+                long,
+            } => write!(
+                f,
+                "{value}{}{}",
+                if *unsigned { "u" } else { "" },
+                if *long { "L" } else { "" }
+            ),
+            ExprKind::Float { value, single } => {
+                let mut text = format!("{value}");
+                if !text.contains(['.', 'e', 'E']) && value.is_finite() {
+                    text.push_str(".0");
+                }
+                write!(f, "{text}{}", if *single { "f" } else { "" })
+            }
+            ExprKind::Ident(name) => write!(f, "{name}"),
+            ExprKind::Field { base, arrow, field } => {
+                write!(
+                    f,
+                    "{}{}{field}",
+                    Operand(base, 15),
+                    if *arrow { "->" } else { "." }
+                )
+            }
+            ExprKind::Index { base, index } => write!(f, "{}[{index}]", Operand(base, 15)),
+            ExprKind::Unary { op, arg } => {
+                let sym = match op {
+                    UnaryOp::Neg => "-",
+                    UnaryOp::Plus => "+",
+                    UnaryOp::Not => "!",
+                    UnaryOp::BitNot => "~",
+                    UnaryOp::Deref => "*",
+                    UnaryOp::AddrOf => "&",
+                };
+                write!(f, "{sym}{}", Operand(arg, 14))
+            }
+            ExprKind::Binary { op, lhs, rhs } => {
+                write!(
+                    f,
+                    "{} {} {}",
+                    Operand(lhs, me),
+                    op.text(),
+                    Operand(rhs, me + 1)
+                )
+            }
+            ExprKind::Assign { op, target, value } => {
+                let sym = op.map(BinaryOp::text).unwrap_or("");
+                write!(f, "{target} {sym}= {}", Operand(value, 2))
+            }
+            ExprKind::IncDec { target, increment } => {
+                write!(
+                    f,
+                    "{}{}",
+                    Operand(target, 15),
+                    if *increment { "++" } else { "--" }
+                )
+            }
+            ExprKind::Cast { ty, arg } => write!(f, "({ty}){}", Operand(arg, 14)),
+            ExprKind::Call { callee, args } => {
+                write!(f, "{}(", Operand(callee, 15))?;
+                for (i, arg) in args.iter().enumerate() {
+                    if i > 0 {
+                        write!(f, ", ")?;
+                    }
+                    write!(f, "{}", Operand(arg, 2))?;
+                }
+                write!(f, ")")
+            }
+            ExprKind::Conditional {
+                cond,
+                then,
+                otherwise,
+            } => write!(
+                f,
+                "{} ? {} : {}",
+                Operand(cond, 4),
+                Operand(then, 2),
+                Operand(otherwise, 3)
+            ),
+            ExprKind::Comma(items) => {
+                for (i, item) in items.iter().enumerate() {
+                    if i > 0 {
+                        write!(f, ", ")?;
+                    }
+                    write!(f, "{}", Operand(item, 2))?;
+                }
+                Ok(())
+            }
+            ExprKind::Opaque(text) => write!(f, "{text}"),
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct LocalDecl {
+    pub name: String,
+    pub ty: CType,
+    pub is_static: bool,
+    pub is_const: bool,
+    pub init: Option<Initializer>,
+    pub span: Span,
+}
+
+/// A declaration's initialiser: a plain expression or a braced list.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Initializer {
+    Expr(Expr),
+    /// Items of `{ ... }`, each with its designator (`.k = ...`) when it has one.
+    List(Vec<(Option<String>, Initializer)>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum Stmt {
+    Expr(Expr),
+    Decl(Vec<LocalDecl>),
+    Block(Vec<Stmt>),
+    If {
+        cond: Expr,
+        then: Box<Stmt>,
+        otherwise: Option<Box<Stmt>>,
+    },
+    /// `for`, `while`, `do`: the body runs zero or more times.
+    Loop {
+        init: Vec<Stmt>,
+        cond: Option<Expr>,
+        step: Option<Expr>,
+        body: Box<Stmt>,
+        span: Span,
+    },
+    Switch {
+        scrutinee: Expr,
+        body: Box<Stmt>,
+    },
+    Return(Option<Expr>, Span),
+    /// A preprocessor conditional inside a function: each branch with its condition text.
+    Conditional(Vec<(CondBranch, Vec<Stmt>)>),
+    Other(Span),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Param {
+    pub name: String,
+    pub ty: CType,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Function {
+    pub name: String,
+    pub params: Vec<Param>,
+    pub returns: CType,
+    pub is_static: bool,
+    pub body: Vec<Stmt>,
+    pub span: Span,
+    pub name_span: Span,
+    pub condition: Condition,
+}
+
+/// One branch of a preprocessor conditional: what makes it active.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CondBranch {
+    /// `#if EXPR` / `#elif EXPR`, the expression as text.
+    If(String),
+    Ifdef(String),
+    Ifndef(String),
+    /// `#else` of the branches listed before it.
+    Else,
+}
+
+/// The chain of preprocessor branches a definition sits in, outermost first. Each element
+/// is the branch taken plus the conditions of the branches before it in the same group,
+/// which must all be false for it to be taken.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Condition {
+    pub levels: Vec<CondLevel>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct CondLevel {
+    pub branch: CondBranch,
+    pub earlier: Vec<CondBranch>,
+}
+
+impl Condition {
+    pub fn is_unconditional(&self) -> bool {
+        self.levels.is_empty()
+    }
+}
+
+impl fmt::Display for CondBranch {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            CondBranch::If(text) => write!(f, "{text}"),
+            CondBranch::Ifdef(name) => write!(f, "defined({name})"),
+            CondBranch::Ifndef(name) => write!(f, "!defined({name})"),
+            CondBranch::Else => write!(f, "else"),
+        }
+    }
+}
+
+impl fmt::Display for Condition {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut parts = Vec::new();
+        for level in &self.levels {
+            let mut terms: Vec<String> = level.earlier.iter().map(|b| format!("!({b})")).collect();
+            if level.branch != CondBranch::Else {
+                terms.push(level.branch.to_string());
+            }
+            parts.push(terms.join(" && "));
+        }
+        write!(f, "{}", parts.join(" && "))
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct MacroDef {
+    pub name: String,
+    /// None for object-like macros.
+    pub params: Option<Vec<String>>,
+    pub body: String,
+    pub span: Span,
+    pub condition: Condition,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct GlobalDecl {
+    pub decl: LocalDecl,
+    pub condition: Condition,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct StructDef {
+    pub name: String,
+    pub fields: Vec<Param>,
+    pub span: Span,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct EnumConst {
+    pub name: String,
+    /// The written value, or None for "previous + 1".
+    pub value: Option<Expr>,
+    /// Position in its enum, and the name of the previous constant, for implicit values.
+    pub previous: Option<String>,
+    pub span: Span,
+}
+
+/// Everything `parse` extracts from one file.
+#[derive(Debug, Clone, Default)]
+pub struct FileIr {
+    pub file: FileId,
+    pub macros: Vec<MacroDef>,
+    pub globals: Vec<GlobalDecl>,
+    pub functions: Vec<Function>,
+    pub structs: Vec<StructDef>,
+    pub enums: Vec<EnumConst>,
+    pub typedefs: Vec<(String, CType)>,
+    pub problems: Vec<ParseProblem>,
+    /// `tauscan:` comments: (line, text after the marker), for tags and suppressions.
+    pub tags: Vec<(u32, String)>,
+}
+
+/// Something in a file the lowering could not read; data for the report, not an error.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParseProblem {
+    pub span: Span,
+    pub message: String,
+}

@@ -1,0 +1,1465 @@
+//! The one door to tree-sitter: C bytes in, the project's IR (`ir`) out.
+//!
+//! Only this module names tree-sitter types or node-kind strings. It lowers the parts of a
+//! translation unit that smoothers need (preprocessor definitions with the `#if` branch they
+//! sit in, declarations with types, struct and enum definitions, functions and their
+//! statements and expressions) and records what it could not read as `ParseProblem`s.
+//! It never fails: broken C gives a partial IR plus problems. It does not expand macros
+//! or resolve names; `index` and `recognise` do that.
+
+use crate::ir::*;
+use tree_sitter::{Node, Parser, Tree};
+
+/// Deeper nesting than this is lowered as an opaque expression, so that hostile input
+/// cannot overflow the stack of the recursive lowering.
+const MAX_DEPTH: u32 = 200;
+
+mod kind {
+    pub const PREPROC_DEF: &str = "preproc_def";
+    pub const PREPROC_FUNCTION_DEF: &str = "preproc_function_def";
+    pub const PREPROC_IF: &str = "preproc_if";
+    pub const PREPROC_IFDEF: &str = "preproc_ifdef";
+    pub const PREPROC_ELSE: &str = "preproc_else";
+    pub const PREPROC_ELIF: &str = "preproc_elif";
+    pub const FUNCTION_DEFINITION: &str = "function_definition";
+    pub const DECLARATION: &str = "declaration";
+    pub const TYPE_DEFINITION: &str = "type_definition";
+    pub const STRUCT_SPECIFIER: &str = "struct_specifier";
+    pub const UNION_SPECIFIER: &str = "union_specifier";
+    pub const ENUM_SPECIFIER: &str = "enum_specifier";
+    pub const ENUMERATOR: &str = "enumerator";
+    pub const FIELD_DECLARATION: &str = "field_declaration";
+    pub const INIT_DECLARATOR: &str = "init_declarator";
+    pub const POINTER_DECLARATOR: &str = "pointer_declarator";
+    pub const ARRAY_DECLARATOR: &str = "array_declarator";
+    pub const FUNCTION_DECLARATOR: &str = "function_declarator";
+    pub const PARENTHESIZED_DECLARATOR: &str = "parenthesized_declarator";
+    pub const ABSTRACT_POINTER_DECLARATOR: &str = "abstract_pointer_declarator";
+    pub const ABSTRACT_ARRAY_DECLARATOR: &str = "abstract_array_declarator";
+    pub const PARAMETER_DECLARATION: &str = "parameter_declaration";
+    pub const STORAGE_CLASS: &str = "storage_class_specifier";
+    pub const TYPE_QUALIFIER: &str = "type_qualifier";
+    pub const PRIMITIVE_TYPE: &str = "primitive_type";
+    pub const SIZED_TYPE: &str = "sized_type_specifier";
+    pub const TYPE_IDENTIFIER: &str = "type_identifier";
+    pub const COMPOUND_STATEMENT: &str = "compound_statement";
+    pub const EXPRESSION_STATEMENT: &str = "expression_statement";
+    pub const IF_STATEMENT: &str = "if_statement";
+    pub const ELSE_CLAUSE: &str = "else_clause";
+    pub const FOR_STATEMENT: &str = "for_statement";
+    pub const WHILE_STATEMENT: &str = "while_statement";
+    pub const DO_STATEMENT: &str = "do_statement";
+    pub const SWITCH_STATEMENT: &str = "switch_statement";
+    pub const CASE_STATEMENT: &str = "case_statement";
+    pub const LABELED_STATEMENT: &str = "labeled_statement";
+    pub const RETURN_STATEMENT: &str = "return_statement";
+    pub const INITIALIZER_LIST: &str = "initializer_list";
+    pub const INITIALIZER_PAIR: &str = "initializer_pair";
+    pub const FIELD_DESIGNATOR: &str = "field_designator";
+    pub const IDENTIFIER: &str = "identifier";
+    pub const FIELD_IDENTIFIER: &str = "field_identifier";
+    pub const NUMBER_LITERAL: &str = "number_literal";
+    pub const CHAR_LITERAL: &str = "char_literal";
+    pub const TRUE: &str = "true";
+    pub const FALSE: &str = "false";
+    pub const PARENTHESIZED_EXPRESSION: &str = "parenthesized_expression";
+    pub const BINARY_EXPRESSION: &str = "binary_expression";
+    pub const UNARY_EXPRESSION: &str = "unary_expression";
+    pub const POINTER_EXPRESSION: &str = "pointer_expression";
+    pub const ASSIGNMENT_EXPRESSION: &str = "assignment_expression";
+    pub const UPDATE_EXPRESSION: &str = "update_expression";
+    pub const CAST_EXPRESSION: &str = "cast_expression";
+    pub const CALL_EXPRESSION: &str = "call_expression";
+    pub const FIELD_EXPRESSION: &str = "field_expression";
+    pub const SUBSCRIPT_EXPRESSION: &str = "subscript_expression";
+    pub const CONDITIONAL_EXPRESSION: &str = "conditional_expression";
+    pub const COMMA_EXPRESSION: &str = "comma_expression";
+    pub const TYPE_DESCRIPTOR: &str = "type_descriptor";
+    pub const COMMENT: &str = "comment";
+}
+
+fn new_parser() -> Option<Parser> {
+    let mut parser = Parser::new();
+    parser.set_language(&tree_sitter_c::LANGUAGE.into()).ok()?;
+    Some(parser)
+}
+
+fn parse_tree(source: &[u8]) -> Option<Tree> {
+    new_parser()?.parse(source, None)
+}
+
+/// Lowers one C file. Never fails; problems are returned inside the IR.
+pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
+    let mut ir = FileIr {
+        file,
+        ..FileIr::default()
+    };
+    let Some(tree) = parse_tree(source) else {
+        ir.problems.push(ParseProblem {
+            span: Span {
+                file,
+                line: 1,
+                column: 1,
+                ..Span::default()
+            },
+            message: "the C parser gave no tree for this file".into(),
+        });
+        return ir;
+    };
+    let mut lower = Lower {
+        src: source,
+        file,
+        ir: &mut ir,
+        errors: 0,
+        first_error: None,
+    };
+    let root = tree.root_node();
+    lower.top_items(root, &Condition::default());
+    if lower.errors > 0 {
+        let span = lower.first_error.unwrap_or_default();
+        let count = lower.errors;
+        ir.problems.push(ParseProblem {
+            span,
+            message: format!(
+                "{count} part(s) of this file could not be parsed as C; smoothers there may be missed"
+            ),
+        });
+    }
+    ir
+}
+
+/// Parses `text` as one C expression (a macro body or a substituted macro call). The spans
+/// of the result all point at `anchor`, the place in the real source the text stands for.
+pub fn parse_expression(text: &str, anchor: Span) -> Option<Expr> {
+    let wrapped = format!("void tauscan_snippet(void) {{ ({text}); }}");
+    let stmts = parse_snippet(&wrapped, anchor)?;
+    match stmts.into_iter().next()? {
+        Stmt::Expr(expr) => Some(expr),
+        _ => None,
+    }
+}
+
+/// Parses `text` as a sequence of statements (the body of a statement-like macro).
+pub fn parse_statements(text: &str, anchor: Span) -> Option<Vec<Stmt>> {
+    let wrapped = format!("void tauscan_snippet(void) {{ {text}; }}");
+    parse_snippet(&wrapped, anchor)
+}
+
+fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
+    let tree = parse_tree(wrapped.as_bytes())?;
+    let mut ir = FileIr::default();
+    let mut lower = Lower {
+        src: wrapped.as_bytes(),
+        file: anchor.file,
+        ir: &mut ir,
+        errors: 0,
+        first_error: None,
+    };
+    lower.top_items(tree.root_node(), &Condition::default());
+    if lower.errors > 0 {
+        return None;
+    }
+    let mut function = ir.functions.pop()?;
+    relocate_stmts(&mut function.body, anchor);
+    Some(function.body)
+}
+
+fn relocate_stmts(stmts: &mut [Stmt], anchor: Span) {
+    for stmt in stmts {
+        relocate_stmt(stmt, anchor);
+    }
+}
+
+fn relocate_stmt(stmt: &mut Stmt, anchor: Span) {
+    match stmt {
+        Stmt::Expr(e) => relocate_expr(e, anchor),
+        Stmt::Decl(decls) => {
+            for d in decls {
+                d.span = anchor;
+                if let Some(Initializer::Expr(e)) = &mut d.init {
+                    relocate_expr(e, anchor);
+                }
+            }
+        }
+        Stmt::Block(items) => relocate_stmts(items, anchor),
+        Stmt::If {
+            cond,
+            then,
+            otherwise,
+        } => {
+            relocate_expr(cond, anchor);
+            relocate_stmt(then, anchor);
+            if let Some(o) = otherwise {
+                relocate_stmt(o, anchor);
+            }
+        }
+        Stmt::Loop {
+            init,
+            cond,
+            step,
+            body,
+            span,
+        } => {
+            *span = anchor;
+            relocate_stmts(init, anchor);
+            if let Some(c) = cond {
+                relocate_expr(c, anchor);
+            }
+            if let Some(s) = step {
+                relocate_expr(s, anchor);
+            }
+            relocate_stmt(body, anchor);
+        }
+        Stmt::Switch { scrutinee, body } => {
+            relocate_expr(scrutinee, anchor);
+            relocate_stmt(body, anchor);
+        }
+        Stmt::Return(e, span) => {
+            *span = anchor;
+            if let Some(e) = e {
+                relocate_expr(e, anchor);
+            }
+        }
+        Stmt::Conditional(branches) => {
+            for (_, body) in branches {
+                relocate_stmts(body, anchor);
+            }
+        }
+        Stmt::Other(span) => *span = anchor,
+    }
+}
+
+/// Moves every span of `expr` to `anchor`.
+pub fn relocate_expr(expr: &mut Expr, anchor: Span) {
+    expr.span = anchor;
+    match &mut expr.kind {
+        ExprKind::Field { base, .. } => relocate_expr(base, anchor),
+        ExprKind::Index { base, index } => {
+            relocate_expr(base, anchor);
+            relocate_expr(index, anchor);
+        }
+        ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => relocate_expr(arg, anchor),
+        ExprKind::Binary { lhs, rhs, .. } => {
+            relocate_expr(lhs, anchor);
+            relocate_expr(rhs, anchor);
+        }
+        ExprKind::Assign { target, value, .. } => {
+            relocate_expr(target, anchor);
+            relocate_expr(value, anchor);
+        }
+        ExprKind::IncDec { target, .. } => relocate_expr(target, anchor),
+        ExprKind::Call { callee, args } => {
+            relocate_expr(callee, anchor);
+            for a in args {
+                relocate_expr(a, anchor);
+            }
+        }
+        ExprKind::Conditional {
+            cond,
+            then,
+            otherwise,
+        } => {
+            relocate_expr(cond, anchor);
+            relocate_expr(then, anchor);
+            relocate_expr(otherwise, anchor);
+        }
+        ExprKind::Comma(items) => {
+            for i in items {
+                relocate_expr(i, anchor);
+            }
+        }
+        ExprKind::Int { .. }
+        | ExprKind::Float { .. }
+        | ExprKind::Ident(_)
+        | ExprKind::Opaque(_) => {}
+    }
+}
+
+/// Prints the tree-sitter syntax tree of a file, for `tauscan debug syntax`.
+pub fn debug_syntax(source: &[u8]) -> String {
+    match parse_tree(source) {
+        Some(tree) => tree.root_node().to_sexp(),
+        None => "no tree".into(),
+    }
+}
+
+struct Lower<'a> {
+    src: &'a [u8],
+    file: FileId,
+    ir: &'a mut FileIr,
+    errors: u32,
+    first_error: Option<Span>,
+}
+
+fn named_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
+    let mut cursor = node.walk();
+    node.named_children(&mut cursor).collect()
+}
+
+fn all_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
+    let mut cursor = node.walk();
+    node.children(&mut cursor).collect()
+}
+
+impl Lower<'_> {
+    fn text(&self, node: Node) -> String {
+        let bytes = self
+            .src
+            .get(node.start_byte()..node.end_byte())
+            .unwrap_or(&[]);
+        String::from_utf8_lossy(bytes).into_owned()
+    }
+
+    fn span(&self, node: Node) -> Span {
+        let point = node.start_position();
+        Span {
+            file: self.file,
+            start: node.start_byte() as u32,
+            end: node.end_byte() as u32,
+            line: point.row as u32 + 1,
+            column: point.column as u32 + 1,
+        }
+    }
+
+    fn note_error(&mut self, node: Node) {
+        self.errors += 1;
+        if self.first_error.is_none() {
+            self.first_error = Some(self.span(node));
+        }
+    }
+
+    fn comment(&mut self, node: Node) {
+        let text = self.text(node);
+        if let Some(pos) = text.find("tauscan:") {
+            let rest = text[pos + "tauscan:".len()..]
+                .trim_end_matches("*/")
+                .trim()
+                .to_string();
+            let line = self.span(node).line;
+            self.ir.tags.push((line, rest));
+        }
+    }
+
+    fn top_items(&mut self, node: Node, cond: &Condition) {
+        for child in named_children(node) {
+            self.top_item(child, cond);
+        }
+    }
+
+    fn top_item(&mut self, node: Node, cond: &Condition) {
+        if node.is_error() || node.is_missing() {
+            self.note_error(node);
+            // Keep what tree-sitter could still make of the inside.
+            self.top_items(node, cond);
+            return;
+        }
+        match node.kind() {
+            kind::PREPROC_DEF => self.macro_def(node, cond, false),
+            kind::PREPROC_FUNCTION_DEF => self.macro_def(node, cond, true),
+            kind::PREPROC_IF | kind::PREPROC_IFDEF => {
+                for (branch_cond, items) in self.preproc_branches(node, cond) {
+                    for item in items {
+                        self.top_item(item, &branch_cond);
+                    }
+                }
+            }
+            kind::FUNCTION_DEFINITION => self.function(node, cond),
+            kind::DECLARATION => self.global_declaration(node, cond),
+            kind::TYPE_DEFINITION => self.type_definition(node),
+            kind::STRUCT_SPECIFIER | kind::UNION_SPECIFIER => {
+                self.struct_specifier(node);
+            }
+            kind::ENUM_SPECIFIER => self.enum_specifier(node),
+            kind::COMMENT => self.comment(node),
+            "linkage_specification" | "declaration_list" => self.top_items(node, cond),
+            _ => {
+                if node.has_error() {
+                    self.note_error(node);
+                }
+                self.find_comments(node);
+            }
+        }
+    }
+
+    fn find_comments(&mut self, node: Node) {
+        for child in named_children(node) {
+            if child.kind() == kind::COMMENT {
+                self.comment(child);
+            }
+        }
+    }
+
+    /// Splits a `#if`/`#ifdef` group into its branches, each with the condition under which
+    /// its items are compiled and the item nodes themselves.
+    fn preproc_branches<'t>(
+        &mut self,
+        node: Node<'t>,
+        outer: &Condition,
+    ) -> Vec<(Condition, Vec<Node<'t>>)> {
+        let mut result = Vec::new();
+        let mut earlier: Vec<CondBranch> = Vec::new();
+        let mut current = Some(node);
+        let mut depth = 0;
+        while let Some(group) = current.take() {
+            depth += 1;
+            if depth > 64 {
+                break;
+            }
+            let branch = match group.kind() {
+                kind::PREPROC_IFDEF => {
+                    let name = group
+                        .child_by_field_name("name")
+                        .map(|n| self.text(n))
+                        .unwrap_or_default();
+                    let negated = all_children(group)
+                        .first()
+                        .map(|n| self.text(*n).contains("ifndef"))
+                        .unwrap_or(false);
+                    if negated {
+                        CondBranch::Ifndef(name)
+                    } else {
+                        CondBranch::Ifdef(name)
+                    }
+                }
+                kind::PREPROC_IF | kind::PREPROC_ELIF => {
+                    let text = group
+                        .child_by_field_name("condition")
+                        .map(|n| self.text(n))
+                        .unwrap_or_default();
+                    CondBranch::If(text.trim().to_string())
+                }
+                _ => CondBranch::Else,
+            };
+            let alternative = group.child_by_field_name("alternative");
+            let mut items = Vec::new();
+            for child in named_children(group) {
+                if Some(child) == alternative {
+                    continue;
+                }
+                if group.child_by_field_name("condition") == Some(child)
+                    || group.child_by_field_name("name") == Some(child)
+                {
+                    continue;
+                }
+                items.push(child);
+            }
+            let mut condition = outer.clone();
+            condition.levels.push(CondLevel {
+                branch: branch.clone(),
+                earlier: earlier.clone(),
+            });
+            result.push((condition, items));
+            earlier.push(branch);
+            current = alternative.filter(|alt| {
+                matches!(alt.kind(), kind::PREPROC_ELSE | kind::PREPROC_ELIF)
+                    || alt.kind().starts_with("preproc_elif")
+            });
+        }
+        result
+    }
+
+    fn macro_def(&mut self, node: Node, cond: &Condition, function_like: bool) {
+        let Some(name) = node.child_by_field_name("name").map(|n| self.text(n)) else {
+            return;
+        };
+        let params = if function_like {
+            node.child_by_field_name("parameters").map(|p| {
+                named_children(p)
+                    .into_iter()
+                    .map(|n| self.text(n))
+                    .collect::<Vec<_>>()
+            })
+        } else {
+            None
+        };
+        let params = if function_like {
+            Some(params.unwrap_or_default())
+        } else {
+            None
+        };
+        let (body, span) = match node.child_by_field_name("value") {
+            Some(v) => (self.text(v), self.span(v)),
+            None => (String::new(), self.span(node)),
+        };
+        // Line continuations and comments are not part of the value.
+        let body = strip_macro_body(&body);
+        self.ir.macros.push(MacroDef {
+            name,
+            params,
+            body,
+            span,
+            condition: cond.clone(),
+        });
+    }
+
+    fn function(&mut self, node: Node, cond: &Condition) {
+        let specifiers = self.specifiers(node);
+        let base_type = node
+            .child_by_field_name("type")
+            .map(|t| self.type_of(t))
+            .unwrap_or(CType::PlainInt { signed: true });
+        let Some(declarator) = node.child_by_field_name("declarator") else {
+            return;
+        };
+        let Some((name, ty, params, name_span)) = self.declarator(declarator, base_type) else {
+            return;
+        };
+        let returns = match ty {
+            CType::Unknown(_) => CType::Unknown("?".into()),
+            other => other,
+        };
+        let body = node
+            .child_by_field_name("body")
+            .map(|b| self.block(b, 0))
+            .unwrap_or_default();
+        self.ir.functions.push(Function {
+            name,
+            params: params.unwrap_or_default(),
+            returns,
+            is_static: specifiers.is_static,
+            body,
+            span: self.span(node),
+            name_span,
+            condition: cond.clone(),
+        });
+    }
+
+    fn specifiers(&self, node: Node) -> Specifiers {
+        let mut spec = Specifiers::default();
+        for child in named_children(node) {
+            match child.kind() {
+                kind::STORAGE_CLASS => {
+                    let t = self.text(child);
+                    if t == "static" {
+                        spec.is_static = true;
+                    }
+                    if t == "extern" {
+                        spec.is_extern = true;
+                    }
+                }
+                kind::TYPE_QUALIFIER if self.text(child) == "const" => spec.is_const = true,
+                _ => {}
+            }
+        }
+        spec
+    }
+
+    /// The C type a type-specifier node names. Struct and enum bodies met here are
+    /// recorded as definitions too.
+    fn type_of(&mut self, node: Node) -> CType {
+        match node.kind() {
+            kind::PRIMITIVE_TYPE | kind::SIZED_TYPE | kind::TYPE_IDENTIFIER => {
+                type_from_name(&self.text(node))
+            }
+            kind::STRUCT_SPECIFIER | kind::UNION_SPECIFIER => {
+                let name = self.struct_specifier(node);
+                CType::Struct(name)
+            }
+            kind::ENUM_SPECIFIER => {
+                self.enum_specifier(node);
+                CType::PlainInt { signed: true }
+            }
+            _ => CType::Unknown(self.text(node)),
+        }
+    }
+
+    /// Records a struct definition (when it has a body) and returns its name; anonymous
+    /// structs get a name from their position so typedefs can point at them.
+    fn struct_specifier(&mut self, node: Node) -> String {
+        let name = node
+            .child_by_field_name("name")
+            .map(|n| self.text(n))
+            .unwrap_or_else(|| format!("<anon@{}>", node.start_byte()));
+        if let Some(body) = node.child_by_field_name("body") {
+            let mut fields = Vec::new();
+            for field in named_children(body) {
+                if field.kind() != kind::FIELD_DECLARATION {
+                    continue;
+                }
+                let base = field
+                    .child_by_field_name("type")
+                    .map(|t| self.type_of(t))
+                    .unwrap_or(CType::Unknown("?".into()));
+                let mut cursor = field.walk();
+                let declarators: Vec<Node> = field
+                    .children_by_field_name("declarator", &mut cursor)
+                    .collect();
+                for d in declarators {
+                    if let Some((fname, fty, _, _)) = self.declarator(d, base.clone()) {
+                        fields.push(Param {
+                            name: fname,
+                            ty: fty,
+                        });
+                    }
+                }
+            }
+            let span = self.span(node);
+            self.ir.structs.push(StructDef {
+                name: name.clone(),
+                fields,
+                span,
+            });
+        }
+        name
+    }
+
+    fn enum_specifier(&mut self, node: Node) {
+        let Some(body) = node.child_by_field_name("body") else {
+            return;
+        };
+        let mut previous: Option<String> = None;
+        for e in named_children(body) {
+            if e.kind() != kind::ENUMERATOR {
+                continue;
+            }
+            let Some(name) = e.child_by_field_name("name").map(|n| self.text(n)) else {
+                continue;
+            };
+            let value = e.child_by_field_name("value").map(|v| self.expr(v, 0));
+            let span = self.span(e);
+            self.ir.enums.push(EnumConst {
+                name: name.clone(),
+                value,
+                previous: previous.clone(),
+                span,
+            });
+            previous = Some(name);
+        }
+    }
+
+    fn type_definition(&mut self, node: Node) {
+        let base = node
+            .child_by_field_name("type")
+            .map(|t| self.type_of(t))
+            .unwrap_or(CType::Unknown("?".into()));
+        let mut cursor = node.walk();
+        let declarators: Vec<Node> = node
+            .children_by_field_name("declarator", &mut cursor)
+            .collect();
+        for d in declarators {
+            if let Some((name, ty, _, _)) = self.declarator(d, base.clone()) {
+                self.ir.typedefs.push((name, ty));
+            }
+        }
+    }
+
+    /// Walks a declarator down to its name, wrapping the base type in the pointers and
+    /// arrays met on the way. Returns the parameters when it is a function declarator.
+    fn declarator(
+        &mut self,
+        node: Node,
+        base: CType,
+    ) -> Option<(String, CType, Option<Vec<Param>>, Span)> {
+        let mut ty = base;
+        let mut current = node;
+        let mut params = None;
+        for _ in 0..32 {
+            match current.kind() {
+                kind::IDENTIFIER | kind::FIELD_IDENTIFIER | kind::TYPE_IDENTIFIER => {
+                    return Some((self.text(current), ty, params, self.span(current)));
+                }
+                kind::POINTER_DECLARATOR => {
+                    ty = CType::Pointer(Box::new(ty));
+                    current = current.child_by_field_name("declarator")?;
+                }
+                kind::ARRAY_DECLARATOR => {
+                    let size = current
+                        .child_by_field_name("size")
+                        .map(|s| Box::new(self.expr(s, 0)));
+                    ty = CType::Array(Box::new(ty), size);
+                    current = current.child_by_field_name("declarator")?;
+                }
+                kind::FUNCTION_DECLARATOR => {
+                    if params.is_none() {
+                        params = Some(self.parameters(current));
+                    }
+                    current = current.child_by_field_name("declarator")?;
+                }
+                kind::PARENTHESIZED_DECLARATOR => {
+                    current = named_children(current).into_iter().next()?;
+                }
+                kind::INIT_DECLARATOR => {
+                    current = current.child_by_field_name("declarator")?;
+                }
+                _ => {
+                    // Attributed or otherwise decorated declarators: look inside.
+                    current = current
+                        .child_by_field_name("declarator")
+                        .or_else(|| named_children(current).into_iter().next())?;
+                }
+            }
+        }
+        None
+    }
+
+    fn parameters(&mut self, function_declarator: Node) -> Vec<Param> {
+        let Some(list) = function_declarator.child_by_field_name("parameters") else {
+            return Vec::new();
+        };
+        let mut params = Vec::new();
+        for p in named_children(list) {
+            if p.kind() != kind::PARAMETER_DECLARATION {
+                continue;
+            }
+            let base = p
+                .child_by_field_name("type")
+                .map(|t| self.type_of(t))
+                .unwrap_or(CType::Unknown("?".into()));
+            match p.child_by_field_name("declarator") {
+                Some(d) => {
+                    if let Some((name, ty, _, _)) = self.declarator(d, base) {
+                        params.push(Param { name, ty });
+                    }
+                }
+                None => {
+                    if base != CType::Void {
+                        params.push(Param {
+                            name: String::new(),
+                            ty: base,
+                        });
+                    }
+                }
+            }
+        }
+        params
+    }
+
+    fn declarations(&mut self, node: Node, depth: u32) -> Vec<LocalDecl> {
+        let spec = self.specifiers(node);
+        let base = node
+            .child_by_field_name("type")
+            .map(|t| self.type_of(t))
+            .unwrap_or(CType::Unknown("?".into()));
+        let mut cursor = node.walk();
+        let declarators: Vec<Node> = node
+            .children_by_field_name("declarator", &mut cursor)
+            .collect();
+        let mut result = Vec::new();
+        for d in declarators {
+            let init = if d.kind() == kind::INIT_DECLARATOR {
+                d.child_by_field_name("value")
+                    .map(|v| self.initializer(v, depth))
+            } else {
+                None
+            };
+            if let Some((name, ty, params, _)) = self.declarator(d, base.clone()) {
+                if params.is_some() {
+                    // A function prototype, not a variable.
+                    continue;
+                }
+                result.push(LocalDecl {
+                    name,
+                    ty,
+                    is_static: spec.is_static,
+                    is_const: spec.is_const,
+                    init,
+                    span: self.span(d),
+                });
+            }
+        }
+        result
+    }
+
+    fn initializer(&mut self, node: Node, depth: u32) -> Initializer {
+        if node.kind() == kind::INITIALIZER_LIST {
+            let mut items = Vec::new();
+            for item in named_children(node) {
+                if item.kind() == kind::COMMENT {
+                    continue;
+                }
+                if item.kind() == kind::INITIALIZER_PAIR {
+                    let designator = item
+                        .child_by_field_name("designator")
+                        .filter(|d| d.kind() == kind::FIELD_DESIGNATOR)
+                        .map(|d| self.text(d).trim_start_matches('.').trim().to_string());
+                    let value = item
+                        .child_by_field_name("value")
+                        .map(|v| self.initializer(v, depth + 1))
+                        .unwrap_or(Initializer::List(Vec::new()));
+                    items.push((designator, value));
+                } else {
+                    items.push((None, self.initializer(item, depth + 1)));
+                }
+            }
+            Initializer::List(items)
+        } else {
+            Initializer::Expr(self.expr(node, depth))
+        }
+    }
+
+    fn global_declaration(&mut self, node: Node, cond: &Condition) {
+        let spec = self.specifiers(node);
+        if spec.is_extern {
+            // A declaration of something defined elsewhere: its definition is what counts.
+            // Keep only the type, for globals defined in files not scanned.
+        }
+        for decl in self.declarations(node, 0) {
+            self.ir.globals.push(GlobalDecl {
+                decl,
+                condition: cond.clone(),
+            });
+        }
+    }
+
+    fn block(&mut self, node: Node, depth: u32) -> Vec<Stmt> {
+        let mut stmts = Vec::new();
+        for child in named_children(node) {
+            if let Some(stmt) = self.stmt(child, depth + 1) {
+                stmts.push(stmt);
+            }
+        }
+        stmts
+    }
+
+    fn stmt(&mut self, node: Node, depth: u32) -> Option<Stmt> {
+        if depth > MAX_DEPTH {
+            return Some(Stmt::Other(self.span(node)));
+        }
+        if node.is_error() {
+            self.note_error(node);
+            return Some(Stmt::Other(self.span(node)));
+        }
+        Some(match node.kind() {
+            kind::COMMENT => {
+                self.comment(node);
+                return None;
+            }
+            kind::COMPOUND_STATEMENT => Stmt::Block(self.block(node, depth)),
+            kind::EXPRESSION_STATEMENT => match named_children(node).into_iter().next() {
+                Some(e) if e.kind() != kind::COMMENT => Stmt::Expr(self.expr(e, depth)),
+                _ => return None,
+            },
+            kind::DECLARATION => Stmt::Decl(self.declarations(node, depth)),
+            kind::IF_STATEMENT => {
+                let cond = node
+                    .child_by_field_name("condition")
+                    .map(|c| self.expr(c, depth))
+                    .unwrap_or_else(|| self.opaque(node));
+                let then = node
+                    .child_by_field_name("consequence")
+                    .and_then(|c| self.stmt(c, depth + 1))
+                    .unwrap_or(Stmt::Block(Vec::new()));
+                let otherwise = node.child_by_field_name("alternative").and_then(|a| {
+                    let inner = if a.kind() == kind::ELSE_CLAUSE {
+                        named_children(a).into_iter().next()?
+                    } else {
+                        a
+                    };
+                    self.stmt(inner, depth + 1)
+                });
+                Stmt::If {
+                    cond,
+                    then: Box::new(then),
+                    otherwise: otherwise.map(Box::new),
+                }
+            }
+            kind::FOR_STATEMENT => {
+                let init = match node.child_by_field_name("initializer") {
+                    Some(i) if i.kind() == kind::DECLARATION => {
+                        vec![Stmt::Decl(self.declarations(i, depth))]
+                    }
+                    Some(i) => vec![Stmt::Expr(self.expr(i, depth))],
+                    None => Vec::new(),
+                };
+                let cond = node
+                    .child_by_field_name("condition")
+                    .map(|c| self.expr(c, depth));
+                let step = node
+                    .child_by_field_name("update")
+                    .map(|u| self.expr(u, depth));
+                let body = node
+                    .child_by_field_name("body")
+                    .and_then(|b| self.stmt(b, depth + 1))
+                    .unwrap_or(Stmt::Block(Vec::new()));
+                Stmt::Loop {
+                    init,
+                    cond,
+                    step,
+                    body: Box::new(body),
+                    span: self.span(node),
+                }
+            }
+            kind::WHILE_STATEMENT | kind::DO_STATEMENT => {
+                let cond = node
+                    .child_by_field_name("condition")
+                    .map(|c| self.expr(c, depth));
+                let body = node
+                    .child_by_field_name("body")
+                    .and_then(|b| self.stmt(b, depth + 1))
+                    .unwrap_or(Stmt::Block(Vec::new()));
+                Stmt::Loop {
+                    init: Vec::new(),
+                    cond,
+                    step: None,
+                    body: Box::new(body),
+                    span: self.span(node),
+                }
+            }
+            kind::SWITCH_STATEMENT => {
+                let scrutinee = node
+                    .child_by_field_name("condition")
+                    .map(|c| self.expr(c, depth))
+                    .unwrap_or_else(|| self.opaque(node));
+                let body = node
+                    .child_by_field_name("body")
+                    .and_then(|b| self.stmt(b, depth + 1))
+                    .unwrap_or(Stmt::Block(Vec::new()));
+                Stmt::Switch {
+                    scrutinee,
+                    body: Box::new(body),
+                }
+            }
+            kind::CASE_STATEMENT | kind::LABELED_STATEMENT => {
+                // The statements after a case label belong to it; the label itself does
+                // not matter to smoothers.
+                let mut inner = Vec::new();
+                for child in named_children(node) {
+                    if node.child_by_field_name("value") == Some(child)
+                        || node.child_by_field_name("label") == Some(child)
+                    {
+                        continue;
+                    }
+                    if let Some(s) = self.stmt(child, depth + 1) {
+                        inner.push(s);
+                    }
+                }
+                Stmt::Block(inner)
+            }
+            kind::RETURN_STATEMENT => {
+                let value = named_children(node)
+                    .into_iter()
+                    .find(|c| c.kind() != kind::COMMENT)
+                    .map(|e| self.expr(e, depth));
+                Stmt::Return(value, self.span(node))
+            }
+            kind::PREPROC_IF | kind::PREPROC_IFDEF => {
+                let mut branches = Vec::new();
+                for (cond, items) in self.preproc_branches(node, &Condition::default()) {
+                    let branch = cond
+                        .levels
+                        .last()
+                        .map(|l| l.branch.clone())
+                        .unwrap_or(CondBranch::Else);
+                    let mut body = Vec::new();
+                    for item in items {
+                        if let Some(s) = self.stmt(item, depth + 1) {
+                            body.push(s);
+                        }
+                    }
+                    branches.push((branch, body));
+                }
+                Stmt::Conditional(branches)
+            }
+            kind::PREPROC_DEF => {
+                self.macro_def(node, &Condition::default(), false);
+                return None;
+            }
+            kind::PREPROC_FUNCTION_DEF => {
+                self.macro_def(node, &Condition::default(), true);
+                return None;
+            }
+            _ => {
+                if node.has_error() {
+                    self.note_error(node);
+                }
+                Stmt::Other(self.span(node))
+            }
+        })
+    }
+
+    fn opaque(&self, node: Node) -> Expr {
+        Expr::new(ExprKind::Opaque(self.text(node)), self.span(node))
+    }
+
+    fn expr(&mut self, node: Node, depth: u32) -> Expr {
+        let span = self.span(node);
+        if depth > MAX_DEPTH {
+            return self.opaque(node);
+        }
+        if node.is_error() {
+            self.note_error(node);
+            return self.opaque(node);
+        }
+        let child = |field: &str| node.child_by_field_name(field);
+        let kind = match node.kind() {
+            kind::IDENTIFIER => ExprKind::Ident(self.text(node)),
+            kind::NUMBER_LITERAL => {
+                let text = self.text(node);
+                // The grammar folds a leading sign into the literal in some places;
+                // C has no negative literals, so keep it as negation.
+                let (negative, digits) = match text.strip_prefix('-') {
+                    Some(rest) => (true, rest.trim_start()),
+                    None => (false, text.trim_start_matches('+').trim_start()),
+                };
+                match parse_number(digits) {
+                    Some(kind) if negative => ExprKind::Unary {
+                        op: UnaryOp::Neg,
+                        arg: Box::new(Expr::new(kind, span)),
+                    },
+                    Some(kind) => kind,
+                    None => ExprKind::Opaque(text),
+                }
+            }
+            kind::CHAR_LITERAL => {
+                let text = self.text(node);
+                let inner = text.trim_matches('\'');
+                match inner.chars().next() {
+                    Some(c) if inner.chars().count() == 1 => ExprKind::Int {
+                        value: c as u128,
+                        unsigned: false,
+                        long: false,
+                    },
+                    _ => ExprKind::Opaque(text),
+                }
+            }
+            kind::TRUE => ExprKind::Int {
+                value: 1,
+                unsigned: false,
+                long: false,
+            },
+            kind::FALSE => ExprKind::Int {
+                value: 0,
+                unsigned: false,
+                long: false,
+            },
+            kind::PARENTHESIZED_EXPRESSION => {
+                return match named_children(node)
+                    .into_iter()
+                    .find(|c| c.kind() != kind::COMMENT)
+                {
+                    Some(inner) => self.expr(inner, depth + 1),
+                    None => self.opaque(node),
+                };
+            }
+            kind::BINARY_EXPRESSION => {
+                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                match (BinaryOp::from_text(&op_text), child("left"), child("right")) {
+                    (Some(op), Some(l), Some(r)) => ExprKind::Binary {
+                        op,
+                        lhs: Box::new(self.expr(l, depth + 1)),
+                        rhs: Box::new(self.expr(r, depth + 1)),
+                    },
+                    _ => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::UNARY_EXPRESSION | kind::POINTER_EXPRESSION => {
+                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                let op = match op_text.as_str() {
+                    "-" => Some(UnaryOp::Neg),
+                    "+" => Some(UnaryOp::Plus),
+                    "!" => Some(UnaryOp::Not),
+                    "~" => Some(UnaryOp::BitNot),
+                    "*" => Some(UnaryOp::Deref),
+                    "&" => Some(UnaryOp::AddrOf),
+                    _ => None,
+                };
+                match (op, child("argument")) {
+                    (Some(op), Some(arg)) => ExprKind::Unary {
+                        op,
+                        arg: Box::new(self.expr(arg, depth + 1)),
+                    },
+                    _ => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::ASSIGNMENT_EXPRESSION => {
+                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                let op = if op_text == "=" {
+                    None
+                } else {
+                    match BinaryOp::from_text(op_text.trim_end_matches('=')) {
+                        Some(op) => Some(op),
+                        None => return self.opaque(node),
+                    }
+                };
+                match (child("left"), child("right")) {
+                    (Some(l), Some(r)) => ExprKind::Assign {
+                        op,
+                        target: Box::new(self.expr(l, depth + 1)),
+                        value: Box::new(self.expr(r, depth + 1)),
+                    },
+                    _ => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::UPDATE_EXPRESSION => {
+                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                match child("argument") {
+                    Some(arg) => ExprKind::IncDec {
+                        target: Box::new(self.expr(arg, depth + 1)),
+                        increment: op_text == "++",
+                    },
+                    None => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::CAST_EXPRESSION => {
+                let ty = child("type")
+                    .map(|t| self.type_descriptor(t))
+                    .unwrap_or(CType::Unknown("?".into()));
+                match child("value") {
+                    Some(v) => ExprKind::Cast {
+                        ty,
+                        arg: Box::new(self.expr(v, depth + 1)),
+                    },
+                    None => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::CALL_EXPRESSION => {
+                let callee = match child("function") {
+                    Some(f) => self.expr(f, depth + 1),
+                    None => return self.opaque(node),
+                };
+                let args = child("arguments")
+                    .map(|a| {
+                        named_children(a)
+                            .into_iter()
+                            .filter(|c| c.kind() != kind::COMMENT)
+                            .map(|c| self.expr(c, depth + 1))
+                            .collect()
+                    })
+                    .unwrap_or_default();
+                ExprKind::Call {
+                    callee: Box::new(callee),
+                    args,
+                }
+            }
+            kind::FIELD_EXPRESSION => {
+                let arrow = child("operator")
+                    .map(|o| self.text(o) == "->")
+                    .unwrap_or(false);
+                match (child("argument"), child("field")) {
+                    (Some(base), Some(field)) => ExprKind::Field {
+                        base: Box::new(self.expr(base, depth + 1)),
+                        arrow,
+                        field: self.text(field),
+                    },
+                    _ => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::SUBSCRIPT_EXPRESSION => match (child("argument"), child("index")) {
+                (Some(base), Some(index)) => ExprKind::Index {
+                    base: Box::new(self.expr(base, depth + 1)),
+                    index: Box::new(self.expr(index, depth + 1)),
+                },
+                _ => ExprKind::Opaque(self.text(node)),
+            },
+            kind::CONDITIONAL_EXPRESSION => {
+                match (
+                    child("condition"),
+                    child("consequence"),
+                    child("alternative"),
+                ) {
+                    (Some(c), Some(t), Some(o)) => ExprKind::Conditional {
+                        cond: Box::new(self.expr(c, depth + 1)),
+                        then: Box::new(self.expr(t, depth + 1)),
+                        otherwise: Box::new(self.expr(o, depth + 1)),
+                    },
+                    _ => ExprKind::Opaque(self.text(node)),
+                }
+            }
+            kind::COMMA_EXPRESSION => {
+                let mut items = Vec::new();
+                let mut current = node;
+                for _ in 0..1000 {
+                    match (
+                        current.child_by_field_name("left"),
+                        current.child_by_field_name("right"),
+                    ) {
+                        (Some(l), Some(r)) => {
+                            items.push(self.expr(l, depth + 1));
+                            if r.kind() == kind::COMMA_EXPRESSION {
+                                current = r;
+                            } else {
+                                items.push(self.expr(r, depth + 1));
+                                break;
+                            }
+                        }
+                        _ => break,
+                    }
+                }
+                ExprKind::Comma(items)
+            }
+            _ => {
+                if node.has_error() {
+                    self.note_error(node);
+                }
+                ExprKind::Opaque(self.text(node))
+            }
+        };
+        Expr::new(kind, span)
+    }
+
+    fn type_descriptor(&mut self, node: Node) -> CType {
+        if node.kind() != kind::TYPE_DESCRIPTOR {
+            return CType::Unknown(self.text(node));
+        }
+        let mut ty = node
+            .child_by_field_name("type")
+            .map(|t| self.type_of(t))
+            .unwrap_or(CType::Unknown("?".into()));
+        let mut declarator = node.child_by_field_name("declarator");
+        for _ in 0..16 {
+            let Some(d) = declarator else { break };
+            match d.kind() {
+                kind::ABSTRACT_POINTER_DECLARATOR => ty = CType::Pointer(Box::new(ty)),
+                kind::ABSTRACT_ARRAY_DECLARATOR => ty = CType::Array(Box::new(ty), None),
+                _ => break,
+            }
+            declarator = d.child_by_field_name("declarator");
+        }
+        ty
+    }
+}
+
+#[derive(Default)]
+struct Specifiers {
+    is_static: bool,
+    is_const: bool,
+    is_extern: bool,
+}
+
+/// Removes comments and line continuations from a macro's replacement text.
+fn strip_macro_body(body: &str) -> String {
+    let mut out = String::with_capacity(body.len());
+    let bytes: Vec<char> = body.chars().collect();
+    let mut i = 0;
+    while i < bytes.len() {
+        let c = bytes[i];
+        if c == '/' && bytes.get(i + 1) == Some(&'*') {
+            i += 2;
+            while i + 1 < bytes.len() && !(bytes[i] == '*' && bytes[i + 1] == '/') {
+                i += 1;
+            }
+            i += 2;
+            out.push(' ');
+            continue;
+        }
+        if c == '/' && bytes.get(i + 1) == Some(&'/') {
+            while i < bytes.len() && bytes[i] != '\n' {
+                i += 1;
+            }
+            continue;
+        }
+        if c == '\\' && matches!(bytes.get(i + 1), Some('\n') | Some('\r')) {
+            i += 1;
+            continue;
+        }
+        out.push(c);
+        i += 1;
+    }
+    out.split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
+/// Maps a type name to the type it means on the target. `int` keeps its target-dependent
+/// width; typedef names are left for `index` to resolve.
+pub fn type_from_name(text: &str) -> CType {
+    let words: Vec<&str> = text.split_whitespace().collect();
+    let fixed = |bits: u8, signed: bool| CType::FixedInt(IntType { bits, signed });
+    let name = words.join(" ");
+    match name.as_str() {
+        "float" | "float32_t" | "float32" => return CType::Float,
+        "double" | "long double" | "float64_t" => return CType::Double,
+        "_Bool" | "bool" => return CType::Bool,
+        "void" => return CType::Void,
+        "int8_t" | "int_least8_t" | "int_fast8_t" | "s8" | "i8" => return fixed(8, true),
+        "uint8_t" | "uint_least8_t" | "uint_fast8_t" | "u8" | "byte" => return fixed(8, false),
+        "int16_t" | "int_least16_t" | "s16" | "i16" | "q15_t" => return fixed(16, true),
+        "uint16_t" | "uint_least16_t" | "u16" => return fixed(16, false),
+        "int32_t" | "int_least32_t" | "s32" | "i32" | "q31_t" => return fixed(32, true),
+        "uint32_t" | "uint_least32_t" | "u32" => return fixed(32, false),
+        "int64_t" | "int_least64_t" | "s64" | "i64" => return fixed(64, true),
+        "uint64_t" | "uint_least64_t" | "u64" => return fixed(64, false),
+        _ => {}
+    }
+    let unsigned = words.contains(&"unsigned");
+    let longs = words.iter().filter(|w| **w == "long").count();
+    if words.contains(&"char") {
+        return fixed(8, !unsigned);
+    }
+    if words.contains(&"short") {
+        return fixed(16, !unsigned);
+    }
+    if longs >= 2 {
+        return fixed(64, !unsigned);
+    }
+    if longs == 1 {
+        return fixed(32, !unsigned);
+    }
+    if words
+        .iter()
+        .all(|w| matches!(*w, "int" | "signed" | "unsigned"))
+        && !words.is_empty()
+    {
+        return CType::PlainInt { signed: !unsigned };
+    }
+    if words.len() == 1 {
+        return CType::Named(name);
+    }
+    CType::Unknown(name)
+}
+
+/// Parses a C integer literal: value, unsigned suffix, long suffix.
+fn parse_int_literal(text: &str) -> Option<(u128, bool, bool)> {
+    let t = text.replace('\'', "");
+    let lower = t.to_ascii_lowercase();
+    let digits_end = lower.trim_end_matches(['u', 'l']).len();
+    let (digits, suffix) = lower.split_at(digits_end);
+    let unsigned = suffix.contains('u');
+    let long = suffix.contains('l');
+    let value = if let Some(hex) = digits.strip_prefix("0x") {
+        u128::from_str_radix(hex, 16).ok()?
+    } else if let Some(bin) = digits.strip_prefix("0b") {
+        u128::from_str_radix(bin, 2).ok()?
+    } else if digits.len() > 1 && digits.starts_with('0') {
+        u128::from_str_radix(&digits[1..], 8).ok()?
+    } else {
+        digits.parse::<u128>().ok()?
+    };
+    Some((value, unsigned, long))
+}
+
+fn parse_number(text: &str) -> Option<ExprKind> {
+    let lower = text.to_ascii_lowercase().replace('\'', "");
+    let is_hex = lower.starts_with("0x");
+    let is_float = if is_hex {
+        lower.contains('.') || lower.contains('p')
+    } else {
+        lower.contains('.') || lower.contains('e') || lower.ends_with('f')
+    };
+    if !is_float {
+        let (value, unsigned, long) = parse_int_literal(&lower)?;
+        return Some(ExprKind::Int {
+            value,
+            unsigned,
+            long,
+        });
+    }
+    let single = lower.ends_with('f');
+    let body = lower.trim_end_matches(['f', 'l']);
+    let value = if is_hex {
+        parse_hex_float(body)?
+    } else {
+        body.parse::<f64>().ok()?
+    };
+    Some(ExprKind::Float { value, single })
+}
+
+fn parse_hex_float(text: &str) -> Option<f64> {
+    let body = text.strip_prefix("0x")?;
+    let (mantissa, exponent) = match body.split_once('p') {
+        Some((m, e)) => (m, e.parse::<i32>().ok()?),
+        None => (body, 0),
+    };
+    let (int_part, frac_part) = mantissa.split_once('.').unwrap_or((mantissa, ""));
+    let mut value = 0f64;
+    for c in int_part.chars() {
+        value = value * 16.0 + c.to_digit(16)? as f64;
+    }
+    let mut scale = 1.0 / 16.0;
+    for c in frac_part.chars() {
+        value += c.to_digit(16)? as f64 * scale;
+        scale /= 16.0;
+    }
+    Some(value * 2f64.powi(exponent))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn one_function(src: &str) -> Function {
+        let ir = parse_file(FileId(0), src.as_bytes());
+        assert!(ir.problems.is_empty(), "{:?}", ir.problems);
+        ir.functions.into_iter().next().unwrap()
+    }
+
+    #[test]
+    fn lowers_compound_assignment_with_spans() {
+        let f = one_function("void f(int u) {\n  static int y;\n  y += (u - y) >> 3;\n}\n");
+        let Stmt::Expr(e) = &f.body[1] else {
+            panic!("expected expression, got {:?}", f.body[1])
+        };
+        assert_eq!(e.to_string(), "y += (u - y) >> 3");
+        assert_eq!(e.span.line, 3);
+        assert_eq!(e.span.column, 3);
+        let Stmt::Decl(d) = &f.body[0] else { panic!() };
+        assert!(d[0].is_static);
+    }
+
+    #[test]
+    fn number_literals_follow_c_spelling() {
+        assert_eq!(
+            parse_number("0x10u"),
+            Some(ExprKind::Int {
+                value: 16,
+                unsigned: true,
+                long: false
+            })
+        );
+        assert_eq!(
+            parse_number("010"),
+            Some(ExprKind::Int {
+                value: 8,
+                unsigned: false,
+                long: false
+            })
+        );
+        assert_eq!(
+            parse_number("0.5f"),
+            Some(ExprKind::Float {
+                value: 0.5,
+                single: true
+            })
+        );
+        assert_eq!(
+            parse_number("1e-3"),
+            Some(ExprKind::Float {
+                value: 0.001,
+                single: false
+            })
+        );
+        assert_eq!(
+            parse_number("0x1p-3"),
+            Some(ExprKind::Float {
+                value: 0.125,
+                single: false
+            })
+        );
+    }
+
+    #[test]
+    fn macros_record_their_preprocessor_branch() {
+        let src = "#ifdef FAST\n#define K 3\n#else\n#define K 5\n#endif\n#define SQ(x) ((x)*(x))\n";
+        let ir = parse_file(FileId(0), src.as_bytes());
+        assert_eq!(ir.macros.len(), 3);
+        assert_eq!(ir.macros[0].condition.to_string(), "defined(FAST)");
+        assert_eq!(ir.macros[1].condition.to_string(), "!(defined(FAST))");
+        assert_eq!(ir.macros[2].params, Some(vec!["x".to_string()]));
+        assert_eq!(ir.macros[2].body, "((x)*(x))");
+    }
+
+    #[test]
+    fn struct_fields_and_typedefs_are_lowered() {
+        let src = "typedef struct { float k; float y; } lpf_t;\nstruct kiln { int16_t t[4]; };\n";
+        let ir = parse_file(FileId(0), src.as_bytes());
+        assert_eq!(ir.structs.len(), 2);
+        assert_eq!(ir.structs[0].fields.len(), 2);
+        assert_eq!(ir.typedefs[0].0, "lpf_t");
+        assert!(
+            matches!(&ir.structs[1].fields[0].ty, CType::Array(_, Some(n)) if n.to_string() == "4")
+        );
+    }
+
+    #[test]
+    fn expression_snippets_parse() {
+        let e = parse_expression("(y) += ((u) - (y)) >> (3)", Span::default()).unwrap();
+        assert_eq!(e.to_string(), "y += (u - y) >> 3");
+    }
+
+    #[test]
+    fn broken_c_is_reported_not_fatal() {
+        let ir = parse_file(
+            FileId(0),
+            b"void f( { y += ; }}}\n int g(void) { return 1; }",
+        );
+        assert!(!ir.problems.is_empty());
+    }
+}

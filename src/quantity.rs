@@ -1,0 +1,110 @@
+//! Quantities as a person writes them: `"1 kHz"`, `"500Hz"`, `"2 ms"`, `"12 dB"`.
+//!
+//! Parsed once at the boundary (command line, spec) into typed values; nothing past this
+//! module sees the strings. A rate may also be given as a period (`"10 ms"` is 100 Hz),
+//! since that is how loop timing is often written.
+
+use crate::units::{Hertz, Seconds};
+use std::fmt;
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct QuantityError {
+    pub text: String,
+    pub expected: &'static str,
+}
+
+impl fmt::Display for QuantityError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "`{}` is not {}", self.text, self.expected)
+    }
+}
+
+impl std::error::Error for QuantityError {}
+
+fn split_number(text: &str) -> Option<(f64, String)> {
+    let t = text.trim();
+    let end = t
+        .char_indices()
+        .find(|(i, c)| {
+            !(c.is_ascii_digit()
+                || *c == '.'
+                || ((*c == 'e' || *c == 'E')
+                    && t[i + 1..]
+                        .starts_with(|n: char| n.is_ascii_digit() || n == '-' || n == '+'))
+                || ((*c == '-' || *c == '+') && (*i == 0 || t[..*i].ends_with(['e', 'E']))))
+        })
+        .map(|(i, _)| i)
+        .unwrap_or(t.len());
+    let value: f64 = t[..end].parse().ok()?;
+    Some((value, t[end..].trim().to_string()))
+}
+
+/// A rate: a frequency (`Hz`, `kHz`, `MHz`; a bare number is Hz) or a period (`s`, `ms`,
+/// `us`), which is turned into its frequency.
+pub fn parse_rate(text: &str) -> Result<Hertz, QuantityError> {
+    let err = || QuantityError {
+        text: text.to_string(),
+        expected: "a rate such as \"1 kHz\", \"500 Hz\" or \"2 ms\"",
+    };
+    let (value, unit) = split_number(text).ok_or_else(err)?;
+    let hz = match unit.to_ascii_lowercase().as_str() {
+        "" | "hz" => value,
+        "khz" => value * 1e3,
+        "mhz" if unit.starts_with('M') => value * 1e6,
+        "s" | "sec" => 1.0 / value,
+        "ms" => 1.0 / (value * 1e-3),
+        "us" | "µs" => 1.0 / (value * 1e-6),
+        _ => return Err(err()),
+    };
+    if hz.is_finite() && hz > 0.0 {
+        Ok(Hertz(hz))
+    } else {
+        Err(err())
+    }
+}
+
+/// A duration: `s`, `ms`, `us`.
+pub fn parse_duration(text: &str) -> Result<Seconds, QuantityError> {
+    let err = || QuantityError {
+        text: text.to_string(),
+        expected: "a duration such as \"200 ms\" or \"1.5 s\"",
+    };
+    let (value, unit) = split_number(text).ok_or_else(err)?;
+    let s = match unit.as_str() {
+        "s" | "sec" => value,
+        "ms" => value * 1e-3,
+        "us" | "µs" => value * 1e-6,
+        "min" => value * 60.0,
+        _ => return Err(err()),
+    };
+    if s.is_finite() && s >= 0.0 {
+        Ok(Seconds(s))
+    } else {
+        Err(err())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rates_in_the_usual_spellings() {
+        assert_eq!(parse_rate("1kHz"), Ok(Hertz(1000.0)));
+        assert_eq!(parse_rate("1 kHz"), Ok(Hertz(1000.0)));
+        assert_eq!(parse_rate("500 Hz"), Ok(Hertz(500.0)));
+        assert_eq!(parse_rate("500"), Ok(Hertz(500.0)));
+        assert_eq!(parse_rate("2 ms"), Ok(Hertz(500.0)));
+        assert_eq!(parse_rate("2.5e3 Hz"), Ok(Hertz(2500.0)));
+        assert!(parse_rate("fast").is_err());
+        assert!(parse_rate("0 Hz").is_err());
+        assert!(parse_rate("-5 Hz").is_err());
+        assert!(parse_rate("5 furlongs").is_err());
+    }
+
+    #[test]
+    fn durations() {
+        assert_eq!(parse_duration("200 ms"), Ok(Seconds(0.2)));
+        assert!(parse_duration("200").is_err());
+    }
+}

@@ -1,0 +1,251 @@
+//! Runs an update the way the target's C would: a compiled form of the update expression
+//! over a few slots (the state and its inputs), evaluated with the integer rules of
+//! `eval::num`, used to measure what truncation does (the dead band).
+//!
+//! Compiling once and evaluating on slots keeps the search loops free of name lookups and
+//! allocation. The dead band is the largest distance at which the state can rest from a
+//! constant input: the largest `d` for which one update from rest at `s`, with the input
+//! at `out(s) + d` (rising) or `out(s) - d` (falling), leaves the state unchanged, over
+//! enough starting points `s` to cover every remainder of the divisions involved. Every
+//! resting point is such a one-step stall and every one-step stall is a resting point, so
+//! this is the same as running to rest from everywhere, at a small fraction of the cost.
+
+use crate::eval::num::{self, ArithError, Num, Target};
+use crate::ir::{BinaryOp, CType, UnaryOp};
+
+#[derive(Debug, Clone)]
+pub enum Node {
+    Const(Num),
+    Slot(usize),
+    Unary(UnaryOp, Box<Node>),
+    Binary(BinaryOp, Box<Node>, Box<Node>),
+    Cast(CType, Box<Node>),
+    Cond(Box<Node>, Box<Node>, Box<Node>),
+}
+
+impl Node {
+    pub fn eval(&self, slots: &[Num], target: Target) -> Result<Num, ArithError> {
+        Ok(match self {
+            Node::Const(v) => *v,
+            Node::Slot(i) => *slots.get(*i).ok_or(ArithError::NotANumber)?,
+            Node::Unary(op, a) => num::unary(*op, a.eval(slots, target)?, target)?.value,
+            Node::Binary(op, a, b) => {
+                num::binary(*op, a.eval(slots, target)?, b.eval(slots, target)?, target)?.value
+            }
+            Node::Cast(ty, a) => a.eval(slots, target)?.convert(ty, target),
+            Node::Cond(c, t, o) => {
+                if !c.eval(slots, target)?.is_zero() {
+                    t.eval(slots, target)?
+                } else {
+                    o.eval(slots, target)?
+                }
+            }
+        })
+    }
+
+    /// Whether evaluating this raises a signed overflow or unsigned wrap for the slots.
+    pub fn hazards(&self, slots: &[Num], target: Target) -> (bool, bool) {
+        let mut overflow = false;
+        let mut wrapped = false;
+        self.walk_hazards(slots, target, &mut overflow, &mut wrapped);
+        (overflow, wrapped)
+    }
+
+    fn walk_hazards(&self, slots: &[Num], target: Target, overflow: &mut bool, wrapped: &mut bool) {
+        match self {
+            Node::Unary(_, a) | Node::Cast(_, a) => {
+                a.walk_hazards(slots, target, overflow, wrapped)
+            }
+            Node::Binary(op, a, b) => {
+                a.walk_hazards(slots, target, overflow, wrapped);
+                b.walk_hazards(slots, target, overflow, wrapped);
+                if let (Ok(x), Ok(y)) = (a.eval(slots, target), b.eval(slots, target)) {
+                    if let Ok(out) = num::binary(*op, x, y, target) {
+                        *overflow |= out.signed_overflow;
+                        *wrapped |= out.unsigned_wrap;
+                    }
+                }
+            }
+            Node::Cond(c, t, o) => {
+                c.walk_hazards(slots, target, overflow, wrapped);
+                t.walk_hazards(slots, target, overflow, wrapped);
+                o.walk_hazards(slots, target, overflow, wrapped);
+            }
+            Node::Const(_) | Node::Slot(_) => {}
+        }
+    }
+}
+
+/// An update ready to run: slot 0 is the state, the others are inputs.
+#[derive(Debug, Clone)]
+pub struct Update {
+    pub new_value: Node,
+    pub state_type: CType,
+    pub input_types: Vec<CType>,
+    /// The state holds the output times this factor (1 for a plain smoother).
+    pub scale: f64,
+    pub target: Target,
+}
+
+/// Rising and falling dead band, in counts of the output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DeadBand {
+    pub rising: u64,
+    pub falling: u64,
+}
+
+impl Update {
+    fn step(&self, state: i128, input: i128) -> Option<i128> {
+        let mut slots = Vec::with_capacity(1 + self.input_types.len());
+        slots.push(int_of(state, &self.state_type, self.target)?);
+        for ty in &self.input_types {
+            slots.push(int_of(input, ty, self.target)?);
+        }
+        let v = self.new_value.eval(&slots, self.target).ok()?;
+        match v.convert(&self.state_type, self.target) {
+            Num::Int { value, .. } => Some(value),
+            Num::Float { .. } => None,
+        }
+    }
+
+    fn output(&self, state: i128) -> i128 {
+        if self.scale <= 1.0 {
+            state
+        } else {
+            (state as f64 / self.scale).floor() as i128
+        }
+    }
+
+    /// The dead band, for an integer state; None for float state or when the update
+    /// cannot be run (an unknown constant, a type that cannot hold the test values).
+    pub fn dead_band(&self, alpha: f64) -> Option<DeadBand> {
+        let (state_min, state_max) = state_range(&self.state_type, self.target)?;
+        let scale = self.scale.max(1.0);
+        let out_max = (state_max as f64 / scale) as i128;
+        let out_min = (state_min as f64 / scale) as i128;
+        let (input_min, input_max) = self
+            .input_types
+            .iter()
+            .filter_map(|t| state_range(t, self.target))
+            .fold((out_min, out_max), |(lo, hi), (a, b)| {
+                (lo.max(a), hi.min(b))
+            });
+        if input_max < 8 {
+            return None;
+        }
+        let base_out = (input_max / 3).clamp(1, 1000);
+        let span = if alpha > 0.0 && alpha.is_finite() {
+            ((4.0 / alpha).ceil() as i128 + 64).min(1 << 17)
+        } else {
+            1 << 12
+        };
+        let bases = ((1i128 << 20) / span.max(1)).clamp(4, 64);
+        // Truncation toward zero behaves differently below zero (C11 6.5.5), so a signed
+        // state is tried on both sides. A scaled state is read out by a division or a shift
+        // whose rounding below zero is not known here, and its band is under one count.
+        let mut starts = vec![base_out];
+        if input_min < -8 && state_min < 0 && scale <= 1.0 {
+            starts.push(-((-input_min) / 3).clamp(1, 1000) - bases);
+        }
+        let mut rising = 0u64;
+        let mut falling = 0u64;
+        for start in starts {
+            for j in 0..bases {
+                let s = (start as f64 * scale) as i128 + j;
+                let out = self.output(s);
+                let up_limit = span.min(input_max - out);
+                let down_limit = span.min(out - input_min);
+                for d in 1..=up_limit.max(0) {
+                    if self.step(s, out + d)? == s {
+                        rising = rising.max(d as u64);
+                    }
+                }
+                for d in 1..=down_limit.max(0) {
+                    if self.step(s, out - d)? == s {
+                        falling = falling.max(d as u64);
+                    }
+                }
+            }
+        }
+        Some(DeadBand { rising, falling })
+    }
+}
+
+fn int_of(value: i128, ty: &CType, target: Target) -> Option<Num> {
+    match ty {
+        CType::FixedInt(t) => Some(Num::int(value, *t)),
+        CType::PlainInt { signed } => Some(Num::int(value, target.int(*signed))),
+        CType::Bool => Some(Num::int((value != 0) as i128, target.int(true))),
+        CType::Float | CType::Double => Some(Num::double(value as f64).convert(ty, target)),
+        _ => None,
+    }
+}
+
+fn state_range(ty: &CType, target: Target) -> Option<(i128, i128)> {
+    match ty {
+        CType::FixedInt(t) => Some(num::int_range(*t)),
+        CType::PlainInt { signed } => Some(num::int_range(target.int(*signed))),
+        _ => None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::ir::IntType;
+
+    fn i32t() -> CType {
+        CType::FixedInt(IntType {
+            bits: 32,
+            signed: true,
+        })
+    }
+
+    fn slot(i: usize) -> Box<Node> {
+        Box::new(Node::Slot(i))
+    }
+    fn k(v: i128) -> Box<Node> {
+        Box::new(Node::Const(Num::int(v, Target::default().int(true))))
+    }
+
+    fn update(new_value: Node) -> Update {
+        Update {
+            new_value,
+            state_type: i32t(),
+            input_types: vec![i32t()],
+            scale: 1.0,
+            target: Target::default(),
+        }
+    }
+
+    #[test]
+    fn truncating_division_rests_n_minus_one_either_side() {
+        // y + (u - y) / 16. Source: C11 6.5.5 (truncation toward zero).
+        let diff = Box::new(Node::Binary(BinaryOp::Sub, slot(1), slot(0)));
+        let step = Box::new(Node::Binary(BinaryOp::Div, diff, k(16)));
+        let u = update(Node::Binary(BinaryOp::Add, slot(0), step));
+        assert_eq!(
+            u.dead_band(1.0 / 16.0),
+            Some(DeadBand {
+                rising: 15,
+                falling: 15
+            })
+        );
+    }
+
+    #[test]
+    fn arithmetic_shift_rests_below_only() {
+        // y + ((u - y) >> 3). Source: GCC manual, "Integers implementation" (>> is
+        // arithmetic on negative values, so falling inputs are always reached).
+        let diff = Box::new(Node::Binary(BinaryOp::Sub, slot(1), slot(0)));
+        let step = Box::new(Node::Binary(BinaryOp::Shr, diff, k(3)));
+        let u = update(Node::Binary(BinaryOp::Add, slot(0), step));
+        assert_eq!(
+            u.dead_band(0.125),
+            Some(DeadBand {
+                rising: 7,
+                falling: 0
+            })
+        );
+    }
+}

@@ -1,0 +1,320 @@
+//! The JSON inventory (`--format json`), schema 1.
+//!
+//! A promise to other programs: fields are added, never renamed or removed, within a
+//! schema number. Unknown values are `null`, never made up.
+//!
+//! ```text
+//! {
+//!   "schema": 1,
+//!   "tool": { "name": "tauscan", "version": "0.1.0" },
+//!   "root": "fixtures/greenhouse",          // the scan root as given
+//!   "smoothers": [ {
+//!     "id": "vent.c::vent_sample::g_vent.temp",   // path::function::state, stable
+//!     "file": "vent.c", "line": 42, "column": 5,  // the update, or an instance's call
+//!     "function": "vent_sample", "state": "g_vent.temp",
+//!     "form": "ema" | "ema-scaled-state" | "moving-average",
+//!     "arithmetic": "float" | "integer" | "fixed",
+//!     "storage": "static-local" | "global" | "field" | "array-element" | "pointer" | "local",
+//!     "alpha": 0.125 | null, "alpha_formula": "k" | null, "alpha_reason": "…" | null,
+//!     "tau_samples": 8.0 | null, "window": 16 | null,
+//!     "rate_hz": 500.0 | null, "rate_source": "LOOP_HZ = 500 (…)" | null,
+//!     "rate_kind": "constant" | "spec" | "adaptive" | "event" | "unknown",
+//!     "cutoff_hz": 10.3 | null, "cutoff_per_sample": 0.13 | null (rad/sample),
+//!     "cutoff_below_nyquist": true | false | null,
+//!     "lag_samples": 7.0 | null, "lag_s": 0.014 | null,
+//!     "settle": { "63": {"samples": 8, "s": 0.016}, "90": …, "95": …, "99": … } | null,
+//!     "time_constant_samples": 7.49 | null,
+//!     "noise_ratio": 0.25 | null, "dc_gain": 1.0 | null, "scale": 8.0 | null,
+//!     "stall": { "rising": 7, "falling": 0 } | null,   // dead band in counts, integer forms
+//!     "coefficient_chain": [ { "file": "vent.c", "line": 3, "text": "#define K 3" } ],
+//!     "definition": { "file": "lpf.c", "line": 9 } | null,   // for instances
+//!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25 } ],
+//!     "update": "y = y + (u - y) >> 3", "inputs": ["u"],
+//!     "cascade": { "stages": [id, …], "cutoff_hz": …, "cutoff_per_sample": …,
+//!                  "lag_samples": …, "lag_s": …, "noise_ratio": … } | null
+//!   } ],
+//!   "findings": [],
+//!   "notes": [ { "file": "x.c", "line": 3 | null, "message": "…" } ]
+//! }
+//! ```
+
+use crate::context::RateKind;
+use crate::figures::SmootherFigures;
+use crate::index::Program;
+use crate::metrics::{Figures, Settling};
+use crate::recognise::{Coefficient, Smoother};
+use crate::scan::Scan;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+pub const SCHEMA: u32 = 1;
+
+#[derive(Serialize)]
+struct Document<'a> {
+    schema: u32,
+    tool: Tool,
+    root: String,
+    smoothers: Vec<Record<'a>>,
+    findings: Vec<serde_json::Value>,
+    notes: Vec<NoteRecord>,
+}
+
+#[derive(Serialize)]
+struct Tool {
+    name: &'static str,
+    version: &'static str,
+}
+
+#[derive(Serialize)]
+struct Location {
+    file: String,
+    line: u32,
+}
+
+#[derive(Serialize)]
+struct ChainRecord {
+    file: String,
+    line: u32,
+    text: String,
+}
+
+#[derive(Serialize)]
+struct Stall {
+    rising: u64,
+    falling: u64,
+}
+
+#[derive(Serialize)]
+struct SettleRecord {
+    samples: Option<f64>,
+    s: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct VariantRecord {
+    condition: String,
+    #[serde(rename = "macro")]
+    macro_name: String,
+    alpha: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct CascadeRecord {
+    stages: Vec<String>,
+    cutoff_hz: Option<f64>,
+    cutoff_per_sample: Option<f64>,
+    lag_samples: f64,
+    lag_s: Option<f64>,
+    noise_ratio: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct Record<'a> {
+    id: String,
+    file: &'a str,
+    line: u32,
+    column: u32,
+    function: &'a str,
+    state: &'a str,
+    form: &'static str,
+    arithmetic: &'static str,
+    storage: &'static str,
+    alpha: Option<f64>,
+    alpha_formula: Option<&'a str>,
+    alpha_reason: Option<&'a str>,
+    tau_samples: Option<f64>,
+    window: Option<u32>,
+    rate_hz: Option<f64>,
+    rate_source: Option<&'a str>,
+    rate_kind: &'static str,
+    cutoff_hz: Option<f64>,
+    cutoff_per_sample: Option<f64>,
+    cutoff_below_nyquist: Option<bool>,
+    lag_samples: Option<f64>,
+    lag_s: Option<f64>,
+    settle: Option<BTreeMap<&'static str, SettleRecord>>,
+    time_constant_samples: Option<f64>,
+    noise_ratio: Option<f64>,
+    dc_gain: Option<f64>,
+    scale: Option<f64>,
+    stall: Option<Stall>,
+    coefficient_chain: Vec<ChainRecord>,
+    definition: Option<Location>,
+    variants: Vec<VariantRecord>,
+    update: &'a str,
+    inputs: &'a [String],
+    cascade: Option<CascadeRecord>,
+}
+
+#[derive(Serialize)]
+struct NoteRecord {
+    file: String,
+    line: Option<u32>,
+    message: String,
+}
+
+/// Finite numbers only: JSON has no NaN or infinity, and a non-finite figure is unknown.
+fn finite(v: Option<f64>) -> Option<f64> {
+    v.filter(|x| x.is_finite())
+}
+
+fn settle(s: &Settling) -> SettleRecord {
+    SettleRecord {
+        samples: finite(s.samples.map(|x| x.0)),
+        s: finite(s.seconds.map(|x| x.0)),
+    }
+}
+
+/// The stable id of each smoother: path, function and state; a repeat gets `#2`, `#3`.
+pub fn ids(program: &Program, smoothers: &[Smoother]) -> Vec<String> {
+    let mut seen: BTreeMap<String, u32> = BTreeMap::new();
+    smoothers
+        .iter()
+        .map(|s| {
+            let base = format!("{}::{}::{}", program.path(s.span.file), s.function, s.state);
+            let n = seen.entry(base.clone()).or_insert(0);
+            *n += 1;
+            if *n == 1 {
+                base
+            } else {
+                format!("{base}#{n}")
+            }
+        })
+        .collect()
+}
+
+fn record<'a>(
+    program: &'a Program,
+    s: &'a Smoother,
+    f: &SmootherFigures,
+    id: String,
+    all_ids: &[String],
+) -> Record<'a> {
+    let own: Option<&Figures> = f.own.as_ref();
+    let (alpha, formula, reason) = match &s.alpha {
+        Coefficient::Known(a) => (Some(*a), None, None),
+        Coefficient::Adaptive { formula, .. } => (None, Some(formula.as_str()), None),
+        Coefficient::Unknown { formula, reason } => {
+            (None, Some(formula.as_str()), Some(reason.as_str()))
+        }
+    };
+    let has_stage = f.stage.is_some();
+    let tau = match s.window {
+        Some(_) => None,
+        None => alpha.filter(|a| *a > 0.0).map(|a| 1.0 / a),
+    };
+    Record {
+        id,
+        file: program.path(s.span.file),
+        line: s.span.line,
+        column: s.span.column,
+        function: &s.function,
+        state: &s.state,
+        form: s.form.name(),
+        arithmetic: s.arithmetic.name(),
+        storage: s.storage.name(),
+        alpha: finite(alpha),
+        alpha_formula: formula,
+        alpha_reason: reason,
+        tau_samples: finite(tau),
+        window: s.window,
+        rate_hz: finite(s.rate.hz),
+        rate_source: s.rate.source.as_deref(),
+        rate_kind: if s.rate.kind == RateKind::Unknown && s.rate.hz.is_some() {
+            RateKind::Constant.name()
+        } else {
+            s.rate.kind.name()
+        },
+        cutoff_hz: finite(own.and_then(|x| x.cutoff_hertz.map(|h| h.0))),
+        cutoff_per_sample: finite(own.and_then(|x| x.cutoff.map(|c| c.0))),
+        cutoff_below_nyquist: has_stage.then(|| own.is_some_and(|x| x.cutoff.is_some())),
+        lag_samples: finite(own.map(|x| x.lag.0)),
+        lag_s: finite(own.and_then(|x| x.lag_seconds.map(|l| l.0))),
+        settle: own.map(|x| {
+            let mut m = BTreeMap::new();
+            m.insert("63", settle(&x.to_63));
+            m.insert("90", settle(&x.to_90));
+            m.insert("95", settle(&x.to_95));
+            m.insert("99", settle(&x.to_99));
+            m
+        }),
+        time_constant_samples: finite(own.and_then(|x| x.time_constant.map(|t| t.0))),
+        noise_ratio: finite(own.and_then(|x| x.noise_ratio)),
+        dc_gain: finite(s.dc_gain),
+        scale: finite(s.scale),
+        stall: s.dead_band.map(|d| Stall {
+            rising: d.rising,
+            falling: d.falling,
+        }),
+        coefficient_chain: s
+            .chain
+            .iter()
+            .map(|c| ChainRecord {
+                file: program.path(c.file).to_string(),
+                line: c.line,
+                text: c.text.clone(),
+            })
+            .collect(),
+        definition: s.definition.map(|d| Location {
+            file: program.path(d.file).to_string(),
+            line: d.line,
+        }),
+        variants: s
+            .variants
+            .iter()
+            .map(|v| VariantRecord {
+                condition: v.condition.clone(),
+                macro_name: v.macro_name.clone(),
+                alpha: finite(v.alpha),
+            })
+            .collect(),
+        update: &s.update,
+        inputs: &s.inputs,
+        cascade: f.cascade.as_ref().map(|(stages, fig)| CascadeRecord {
+            stages: stages.iter().map(|&i| all_ids[i].clone()).collect(),
+            cutoff_hz: finite(fig.cutoff_hertz.map(|h| h.0)),
+            cutoff_per_sample: finite(fig.cutoff.map(|c| c.0)),
+            lag_samples: fig.lag.0,
+            lag_s: finite(fig.lag_seconds.map(|l| l.0)),
+            noise_ratio: finite(fig.noise_ratio),
+        }),
+    }
+}
+
+/// The whole scan as JSON text.
+pub fn render(scan: &Scan, root_label: &str) -> String {
+    let program = &scan.program;
+    let smoothers = &scan.recognition.smoothers;
+    let all_ids = ids(program, smoothers);
+    let records = smoothers
+        .iter()
+        .zip(&scan.figures)
+        .zip(&all_ids)
+        .map(|((s, f), id)| record(program, s, f, id.clone(), &all_ids))
+        .collect();
+    let doc = Document {
+        schema: SCHEMA,
+        tool: Tool {
+            name: "tauscan",
+            version: env!("CARGO_PKG_VERSION"),
+        },
+        root: root_label.to_string(),
+        smoothers: records,
+        findings: Vec::new(),
+        notes: scan
+            .notes
+            .iter()
+            .map(|n| NoteRecord {
+                file: n.file.clone(),
+                line: n.line,
+                message: n.message.clone(),
+            })
+            .collect(),
+    };
+    // Serialising plain structs of strings and finite numbers cannot fail; should it ever,
+    // the output says so rather than being empty.
+    let mut text = serde_json::to_string_pretty(&doc)
+        .unwrap_or_else(|e| format!("{{\"schema\": {SCHEMA}, \"error\": \"{e}\"}}"));
+    text.push('\n');
+    text
+}

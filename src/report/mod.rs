@@ -1,0 +1,60 @@
+//! Rendering: the scan's smoothers and notes as a terminal table or the versioned JSON.
+//!
+//! Only this module knows serde and output formats. Every string that comes from the
+//! scanned files passes `neutral` before it reaches a terminal, so control characters and
+//! escape sequences in source text cannot drive the reader's terminal. Files are written
+//! whole or not at all (`write_atomically`).
+
+pub mod json;
+pub mod table;
+
+use std::io::Write;
+use std::path::Path;
+
+/// Source text made safe for a terminal: control characters shown as `\u{..}` escapes.
+pub fn neutral(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        if c.is_control() && c != '\t' {
+            out.push_str(&format!("\\u{{{:x}}}", c as u32));
+        } else {
+            out.push(c);
+        }
+    }
+    out
+}
+
+/// Writes `contents` to `path` through a temporary file in the same folder and a rename,
+/// so that a reader never sees a half-written file.
+pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {
+    let folder = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or_else(|| Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "output".into());
+    let temporary = folder.join(format!(".{name}.tauscan-{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut file = std::fs::File::create(&temporary)?;
+        file.write_all(contents)?;
+        file.sync_all()?;
+        std::fs::rename(&temporary, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&temporary);
+    }
+    result
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn escapes_cannot_reach_the_terminal() {
+        assert_eq!(neutral("y\x1b[2Jx"), "y\\u{1b}[2Jx");
+        assert_eq!(neutral("plain"), "plain");
+    }
+}

@@ -1,0 +1,225 @@
+//! The terminal table (`--format table`, the default): one row per smoother, aligned,
+//! with figures in Hz and seconds where the rate is known and in samples where it is not.
+//!
+//! Columns: where, function, state, form and arithmetic, coefficient, rate, cutoff, lag,
+//! time to 95 %, noise ratio, DC gain, dead band (rising/falling counts). A row's rate
+//! source and coefficient chain are in the JSON; the table stays one line per smoother.
+
+use super::neutral;
+use crate::context::RateKind;
+use crate::recognise::{Coefficient, Form};
+use crate::scan::Scan;
+
+/// Three significant digits, no exponent for everyday magnitudes.
+pub fn sig3(v: f64) -> String {
+    if !v.is_finite() {
+        return "?".into();
+    }
+    if v == 0.0 {
+        return "0".into();
+    }
+    let magnitude = v.abs().log10().floor() as i32;
+    let decimals = (2 - magnitude).clamp(0, 6) as usize;
+    let text = format!("{v:.decimals$}");
+    if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
+
+pub fn hertz(v: f64) -> String {
+    if v >= 1e3 {
+        format!("{} kHz", sig3(v / 1e3))
+    } else {
+        format!("{} Hz", sig3(v))
+    }
+}
+
+pub fn seconds(v: f64) -> String {
+    if v == 0.0 {
+        "0 s".into()
+    } else if v < 1e-3 {
+        format!("{} us", sig3(v * 1e6))
+    } else if v < 1.0 {
+        format!("{} ms", sig3(v * 1e3))
+    } else {
+        format!("{} s", sig3(v))
+    }
+}
+
+fn coefficient(s: &crate::recognise::Smoother) -> String {
+    if s.form == Form::MovingAverage {
+        return s
+            .window
+            .map(|n| format!("N={n}"))
+            .unwrap_or_else(|| "N=?".into());
+    }
+    match &s.alpha {
+        Coefficient::Known(a) => {
+            if *a > 0.0 {
+                format!("a={} (tau {})", sig3(*a), sig3(1.0 / a))
+            } else {
+                format!("a={}", sig3(*a))
+            }
+        }
+        Coefficient::Adaptive { depends_on, .. } => format!("adaptive ({depends_on})"),
+        Coefficient::Unknown { .. } => "unknown".into(),
+    }
+}
+
+pub fn render(scan: &Scan) -> String {
+    let headers = [
+        "LOCATION",
+        "FUNCTION",
+        "STATE",
+        "FORM",
+        "COEFFICIENT",
+        "RATE",
+        "CUTOFF",
+        "LAG",
+        "95%",
+        "NOISE",
+        "DC",
+        "DEAD BAND",
+    ];
+    let mut rows: Vec<Vec<String>> = Vec::new();
+    for (s, f) in scan.recognition.smoothers.iter().zip(&scan.figures) {
+        let own = f.own.as_ref();
+        let rate = match (s.rate.hz, s.rate.kind) {
+            (Some(hz), RateKind::Spec) => format!("{} (given)", hertz(hz)),
+            (Some(hz), _) => hertz(hz),
+            (None, RateKind::Adaptive) => "adaptive".into(),
+            (None, RateKind::Event) => "per event".into(),
+            (None, _) => "?".into(),
+        };
+        let cutoff = match own {
+            None => "-".into(),
+            Some(x) => match (x.cutoff, x.cutoff_hertz) {
+                (_, Some(hz)) => hertz(hz.0),
+                (Some(w), None) => format!("{} fs", sig3(w.0 / std::f64::consts::TAU)),
+                (None, _) => "none<Nyq".into(),
+            },
+        };
+        let lag = match own {
+            None => "-".into(),
+            Some(x) => match x.lag_seconds {
+                Some(t) => seconds(t.0),
+                None => format!("{} smp", sig3(x.lag.0)),
+            },
+        };
+        let settle = match own {
+            None => "-".into(),
+            Some(x) => match (x.to_95.seconds, x.to_95.samples) {
+                (Some(t), _) => seconds(t.0),
+                (None, Some(n)) => format!("{} smp", sig3(n.0)),
+                _ => "?".into(),
+            },
+        };
+        let noise = own
+            .and_then(|x| x.noise_ratio)
+            .map(sig3)
+            .unwrap_or_else(|| "-".into());
+        let dc = s.dc_gain.map(sig3).unwrap_or_else(|| "?".into());
+        let band = s
+            .dead_band
+            .map(|d| format!("+{}/-{}", d.rising, d.falling))
+            .unwrap_or_else(|| "-".into());
+        let location = format!("{}:{}", scan.program.path(s.span.file), s.span.line);
+        let form = format!("{} {}", s.form.name(), s.arithmetic.name());
+        rows.push(vec![
+            neutral(&location),
+            neutral(&s.function),
+            neutral(&s.state),
+            form,
+            neutral(&coefficient(s)),
+            rate,
+            cutoff,
+            lag,
+            settle,
+            noise,
+            dc,
+            band,
+        ]);
+        if let Some((stages, fig)) = &f.cascade {
+            let cut = match (fig.cutoff_hertz, fig.cutoff) {
+                (Some(hz), _) => hertz(hz.0),
+                (None, Some(w)) => format!("{} fs", sig3(w.0 / std::f64::consts::TAU)),
+                _ => "none<Nyq".into(),
+            };
+            let lag = match fig.lag_seconds {
+                Some(t) => seconds(t.0),
+                None => format!("{} smp", sig3(fig.lag.0)),
+            };
+            let settle = match (fig.to_95.seconds, fig.to_95.samples) {
+                (Some(t), _) => seconds(t.0),
+                (None, Some(n)) => format!("{} smp", sig3(n.0)),
+                _ => "?".into(),
+            };
+            rows.push(vec![
+                String::new(),
+                String::new(),
+                format!("  cascade of {}", stages.len()),
+                "combined".into(),
+                String::new(),
+                String::new(),
+                cut,
+                lag,
+                settle,
+                fig.noise_ratio.map(sig3).unwrap_or_else(|| "-".into()),
+                String::new(),
+                String::new(),
+            ]);
+        }
+    }
+    let mut widths: Vec<usize> = headers.iter().map(|h| h.chars().count()).collect();
+    for row in &rows {
+        for (i, cell) in row.iter().enumerate() {
+            widths[i] = widths[i].max(cell.chars().count());
+        }
+    }
+    let mut out = String::new();
+    let line = |cells: &[String], out: &mut String| {
+        let mut text = String::new();
+        for (i, cell) in cells.iter().enumerate() {
+            if i > 0 {
+                text.push_str("  ");
+            }
+            let pad = widths[i].saturating_sub(cell.chars().count());
+            text.push_str(cell);
+            text.push_str(&" ".repeat(pad));
+        }
+        out.push_str(text.trim_end());
+        out.push('\n');
+    };
+    line(
+        &headers.iter().map(|h| h.to_string()).collect::<Vec<_>>(),
+        &mut out,
+    );
+    for row in &rows {
+        line(row, &mut out);
+    }
+    let count = scan.recognition.smoothers.len();
+    let files = scan.program.files.len();
+    out.push_str(&format!(
+        "\n{count} smoother{} in {files} file{}. Figures in samples where the rate is unknown (fs = the update rate).\n",
+        if count == 1 { "" } else { "s" },
+        if files == 1 { "" } else { "s" }
+    ));
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_read_naturally() {
+        assert_eq!(sig3(4.9712), "4.97");
+        assert_eq!(sig3(0.0309), "0.0309");
+        assert_eq!(sig3(1234.6), "1235");
+        assert_eq!(hertz(1500.0), "1.5 kHz");
+        assert_eq!(seconds(0.014), "14 ms");
+        assert_eq!(seconds(2.5), "2.5 s");
+    }
+}

@@ -1,0 +1,158 @@
+//! One scan: the listed files read and parsed in parallel, the program indexed, the
+//! smoothers recognised and their figures computed.
+//!
+//! Each file is read and parsed on a worker thread and only its IR is kept (the syntax
+//! tree and the bytes are dropped as soon as the file is lowered), so memory follows the
+//! IR, not the trees. Problems with single files are collected as notes; the scan goes on.
+
+use crate::figures::{self, SmootherFigures};
+use crate::index::{Program, ProgramOptions};
+use crate::ir::{FileId, FileIr};
+use crate::recognise::{self, RecogniseOptions, Recognition};
+use crate::walk::{self, WalkResult};
+use rayon::prelude::*;
+use std::path::PathBuf;
+
+#[derive(Debug, Clone, Default)]
+pub struct ScanOptions {
+    pub paths: Vec<PathBuf>,
+    pub program: ProgramOptions,
+    pub recognise: RecogniseOptions,
+    /// Relative paths (with '/') for which this returns true are not read.
+    pub exclude: Vec<String>,
+}
+
+/// A note about one file or the scan as a whole, for stderr and the JSON `notes`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScanNote {
+    pub file: String,
+    pub line: Option<u32>,
+    pub message: String,
+    /// True when the note means results may be missing (an unreadable file).
+    pub incomplete: bool,
+}
+
+pub struct Scan {
+    pub root: PathBuf,
+    pub program: Program,
+    pub recognition: Recognition,
+    pub figures: Vec<SmootherFigures>,
+    pub notes: Vec<ScanNote>,
+    /// A path given does not exist or a file could not be read.
+    pub incomplete: bool,
+}
+
+fn excluded(patterns: &[String], relative: &str) -> bool {
+    patterns.iter().any(|p| glob_match(p, relative))
+}
+
+/// A small glob: `*` within a path part, `**` across parts, `?` one character.
+pub fn glob_match(pattern: &str, text: &str) -> bool {
+    fn go(p: &[u8], t: &[u8]) -> bool {
+        match (p.first(), t.first()) {
+            (None, None) => true,
+            (Some(b'*'), _) if p.get(1) == Some(&b'*') => {
+                let rest = p[2..].strip_prefix(b"/").unwrap_or(&p[2..]);
+                (0..=t.len()).any(|i| go(rest, &t[i..]))
+            }
+            (Some(b'*'), _) => (0..=t.len())
+                .take_while(|&i| i == 0 || t[i - 1] != b'/')
+                .any(|i| go(&p[1..], &t[i..])),
+            (Some(b'?'), Some(c)) if *c != b'/' => go(&p[1..], &t[1..]),
+            (Some(a), Some(b)) if a == b => go(&p[1..], &t[1..]),
+            _ => false,
+        }
+    }
+    go(pattern.as_bytes(), text.as_bytes())
+}
+
+/// Reads, parses and analyses the files under `options.paths`.
+pub fn run(options: &ScanOptions) -> Scan {
+    let walked: WalkResult = walk::walk(&options.paths, &|rel| excluded(&options.exclude, rel));
+    let mut notes: Vec<ScanNote> = walked
+        .problems
+        .iter()
+        .map(|p| ScanNote {
+            file: p.path.clone(),
+            line: None,
+            message: p.message.clone(),
+            incomplete: true,
+        })
+        .collect();
+    let mut incomplete = walked.missing_inputs || !walked.problems.is_empty();
+
+    let parsed: Vec<(FileIr, Option<String>)> = walked
+        .files
+        .par_iter()
+        .enumerate()
+        .map(|(i, source)| {
+            let id = FileId(i as u32);
+            match std::fs::read(&source.absolute) {
+                Ok(bytes) => (crate::parse::parse_file(id, &bytes), None),
+                Err(e) => (
+                    FileIr {
+                        file: id,
+                        ..FileIr::default()
+                    },
+                    Some(format!("cannot be read: {e}")),
+                ),
+            }
+        })
+        .collect();
+    let paths: Vec<String> = walked.files.iter().map(|f| f.relative.clone()).collect();
+    let mut files = Vec::with_capacity(parsed.len());
+    for (ir, read_error) in parsed {
+        let path = paths[ir.file.0 as usize].clone();
+        if let Some(message) = read_error {
+            incomplete = true;
+            notes.push(ScanNote {
+                file: path.clone(),
+                line: None,
+                message,
+                incomplete: true,
+            });
+        }
+        for problem in &ir.problems {
+            notes.push(ScanNote {
+                file: path.clone(),
+                line: Some(problem.span.line),
+                message: problem.message.clone(),
+                incomplete: false,
+            });
+        }
+        files.push(ir);
+    }
+    let program = Program::build(files, paths, options.program.clone());
+    let recognition = recognise::recognise(&program, &options.recognise);
+    for note in &recognition.notes {
+        notes.push(ScanNote {
+            file: program.path(note.span.file).to_string(),
+            line: Some(note.span.line),
+            message: note.message.clone(),
+            incomplete: false,
+        });
+    }
+    let figures = figures::for_all(&recognition.smoothers);
+    Scan {
+        root: walked.root,
+        program,
+        recognition,
+        figures,
+        notes,
+        incomplete,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::glob_match;
+
+    #[test]
+    fn globs_match_paths() {
+        assert!(glob_match("vendor/**", "vendor/a/b.c"));
+        assert!(glob_match("**/test_*.c", "src/x/test_vent.c"));
+        assert!(glob_match("*.h", "vent.h"));
+        assert!(!glob_match("*.h", "inc/vent.h"));
+        assert!(glob_match("src/?ent.c", "src/vent.c"));
+    }
+}

@@ -1,0 +1,119 @@
+/*
+ * Generic execution driver: measures what each smoother of one fixture really does.
+ *
+ * Linked with one tests/exec/<case>.drive.c, it runs every entry of DRIVE_CASES and prints
+ * one tab-separated line per case:
+ *
+ *   function  state  integer  scale  alpha  dc_gain  stall_rising  stall_falling
+ *
+ * alpha is the first step of the step response from rest at zero, divided by the scale.
+ * dc_gain is where a step of the scale comes to rest, divided by the scale. The stalls are
+ * printed for integer forms only ("-" for float): the most counts the output rests below a
+ * constant input it approached from below (rising), or above one it approached from above
+ * (falling). Matching these figures with tauscan's is left to tests/exec_truth.rs.
+ */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+
+#include "drive.h"
+
+/* No smoother of the fixtures needs this many updates to settle; a form that never comes
+ * to rest (a float state flickering between two neighbours) is stopped here. */
+#define STEP_CAP 1000000L
+
+/* Bases B, B+1, ..., B+15 are used for the dead band, because a form whose terms truncate
+ * on their own (7*y/8 + u/8) rests at points that depend on the residues of y and u, not
+ * only on their difference; 16 covers every residue of the divisors the fixtures use. */
+#define BASE_OFFSETS 16
+
+/* Feed u until the output has not changed for `hold` updates in a row, and return it.
+ * One unchanged update is not enough: a scaled state keeps moving under an output that
+ * holds still for up to 2^k updates. */
+static double settle(const struct drive_case *c, double u, long hold)
+{
+    double last = c->step(u);
+    long unchanged = 0;
+    for (long n = 1; n < STEP_CAP && unchanged < hold; n++) {
+        double y = c->step(u);
+        if (y == last) {
+            unchanged++;
+        } else {
+            unchanged = 0;
+            last = y;
+        }
+    }
+    return last;
+}
+
+static int measure(const struct drive_case *c)
+{
+    c->reset(0.0);
+    double alpha = c->step(c->scale) / c->scale;
+    if (!(alpha > 0.0 && alpha <= 1.0)) {
+        fprintf(stderr, "%s %s: first step gives alpha %g, not in (0, 1]\n", c->function,
+                c->state, alpha);
+        return 1;
+    }
+    /* Twice the time constant covers the longest run of an unchanged output while a
+     * scaled state is still moving (at most 1/alpha updates for a difference of 1). */
+    long hold = (long)ceil(2.0 / alpha) + 2;
+
+    c->reset(0.0);
+    double dc = settle(c, c->scale, hold) / c->scale;
+
+    char rising_text[32] = "-";
+    char falling_text[32] = "-";
+    if (c->integer) {
+        /* The dead bands of the forms under test are below 1/alpha counts; four times that
+         * leaves room for forms that truncate twice. */
+        long limit = (long)ceil(4.0 / alpha) + 8;
+        double half = floor(c->scale / 2.0);
+        double rising = 0.0;
+        double falling = 0.0;
+        int signs = c->signed_range ? 2 : 1;
+        for (int s = 0; s < signs; s++) {
+            double centre = s == 0 ? half : -half;
+            for (int j = 0; j < BASE_OFFSETS; j++) {
+                double base = centre + j;
+                for (long d = 1; d <= limit; d++) {
+                    c->reset(base);
+                    double up = base + (double)d;
+                    double rest = settle(c, up, hold);
+                    if (up - rest > rising) {
+                        rising = up - rest;
+                    }
+                    double down = base - (double)d;
+                    if (!c->signed_range && down < 0.0) {
+                        continue;
+                    }
+                    c->reset(base);
+                    rest = settle(c, down, hold);
+                    if (rest - down > falling) {
+                        falling = rest - down;
+                    }
+                }
+            }
+        }
+        snprintf(rising_text, sizeof rising_text, "%.0f", rising);
+        snprintf(falling_text, sizeof falling_text, "%.0f", falling);
+    }
+    printf("%s\t%s\t%d\t%.17g\t%.17g\t%.17g\t%s\t%s\n", c->function, c->state, c->integer,
+           c->scale, alpha, dc, rising_text, falling_text);
+    return 0;
+}
+
+int main(void)
+{
+    int failed = 0;
+    int count = 0;
+    for (const struct drive_case *c = DRIVE_CASES; c->function != NULL; c++) {
+        failed |= measure(c);
+        count++;
+    }
+    if (count == 0) {
+        fprintf(stderr, "no drive cases\n");
+        return 1;
+    }
+    return failed;
+}
