@@ -15,7 +15,7 @@
 //!     "form": "ema" | "ema-scaled-state" | "moving-average",
 //!     "arithmetic": "float" | "integer" | "fixed",
 //!     "storage": "static-local" | "global" | "field" | "array-element" | "pointer" | "local",
-//!     "alpha": 0.125 | null, "alpha_formula": "k" | null, "alpha_reason": "…" | null,
+//!     "alpha": 0.125 | null (null for a moving average, which has a window), "alpha_formula": "k" | null, "alpha_reason": "…" | null,
 //!     "tau_samples": 8.0 | null, "window": 16 | null,
 //!     "rate_hz": 500.0 | null, "rate_source": "LOOP_HZ = 500 (…)" | null,
 //!     "rate_kind": "constant" | "spec" | "adaptive" | "event" | "unknown",
@@ -31,7 +31,7 @@
 //!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25 } ],
 //!     "update": "y = y + (u - y) >> 3", "inputs": ["u"],
 //!     "cascade": { "stages": [id, …], "cutoff_hz": …, "cutoff_per_sample": …,
-//!                  "lag_samples": …, "lag_s": …, "noise_ratio": … } | null
+//!                  "lag_samples": …, "lag_s": …, "settle": {…}, "noise_ratio": … } | null
 //!   } ],
 //!   "findings": [],
 //!   "notes": [ { "file": "x.c", "line": 3 | null, "message": "…" } ]
@@ -105,6 +105,7 @@ struct CascadeRecord {
     cutoff_per_sample: Option<f64>,
     lag_samples: f64,
     lag_s: Option<f64>,
+    settle: BTreeMap<&'static str, SettleRecord>,
     noise_ratio: Option<f64>,
 }
 
@@ -165,6 +166,15 @@ fn settle(s: &Settling) -> SettleRecord {
     }
 }
 
+fn settle_map(x: &Figures) -> BTreeMap<&'static str, SettleRecord> {
+    let mut m = BTreeMap::new();
+    m.insert("63", settle(&x.to_63));
+    m.insert("90", settle(&x.to_90));
+    m.insert("95", settle(&x.to_95));
+    m.insert("99", settle(&x.to_99));
+    m
+}
+
 /// The stable id of each smoother: path, function and state; a repeat gets `#2`, `#3`.
 pub fn ids(program: &Program, smoothers: &[Smoother]) -> Vec<String> {
     let mut seen: BTreeMap<String, u32> = BTreeMap::new();
@@ -192,6 +202,8 @@ fn record<'a>(
 ) -> Record<'a> {
     let own: Option<&Figures> = f.own.as_ref();
     let (alpha, formula, reason) = match &s.alpha {
+        // A moving average has a window, not a smoothing coefficient.
+        Coefficient::Known(_) if s.window.is_some() => (None, None, None),
         Coefficient::Known(a) => (Some(*a), None, None),
         Coefficient::Adaptive { formula, .. } => (None, Some(formula.as_str()), None),
         Coefficient::Unknown { formula, reason } => {
@@ -230,14 +242,7 @@ fn record<'a>(
         cutoff_below_nyquist: has_stage.then(|| own.is_some_and(|x| x.cutoff.is_some())),
         lag_samples: finite(own.map(|x| x.lag.0)),
         lag_s: finite(own.and_then(|x| x.lag_seconds.map(|l| l.0))),
-        settle: own.map(|x| {
-            let mut m = BTreeMap::new();
-            m.insert("63", settle(&x.to_63));
-            m.insert("90", settle(&x.to_90));
-            m.insert("95", settle(&x.to_95));
-            m.insert("99", settle(&x.to_99));
-            m
-        }),
+        settle: own.map(settle_map),
         time_constant_samples: finite(own.and_then(|x| x.time_constant.map(|t| t.0))),
         noise_ratio: finite(own.and_then(|x| x.noise_ratio)),
         dc_gain: finite(s.dc_gain),
@@ -276,6 +281,7 @@ fn record<'a>(
             cutoff_per_sample: finite(fig.cutoff.map(|c| c.0)),
             lag_samples: fig.lag.0,
             lag_s: finite(fig.lag_seconds.map(|l| l.0)),
+            settle: settle_map(fig),
             noise_ratio: finite(fig.noise_ratio),
         }),
     }
