@@ -221,6 +221,9 @@ struct Candidate {
     buffer_writes: Vec<(String, String)>,
     /// Local temporaries left as names in the update, with their values, for evaluation.
     locals: HashMap<String, Expr>,
+    /// Set for a buffer that is summed afresh each call after the new sample is stored:
+    /// the loop bound (the window).
+    resummed_bound: Option<Expr>,
 }
 
 impl Candidate {
@@ -271,6 +274,10 @@ fn expand_candidate(
                         .iter()
                         .map(|(k, v)| (k.clone(), simplify(&substitute_idents(v, &map))))
                         .collect(),
+                    resummed_bound: candidate
+                        .resummed_bound
+                        .as_ref()
+                        .map(|b| simplify(&substitute_idents(b, &map))),
                 };
                 expand_candidate(program, instance, depth + 1, out, options);
             }
@@ -531,8 +538,11 @@ impl<'p> Walker<'p> {
                 body,
                 step,
                 cond,
-                ..
+                span,
             } => {
+                if let Some(c) = self.resummed_loop(init, cond.as_ref(), body, *span) {
+                    self.candidates.push((c, None));
+                }
                 self.block(init);
                 let before = self.env.clone();
                 self.stmt(body);
@@ -570,6 +580,85 @@ impl<'p> Walker<'p> {
             }
             Stmt::Return(None, _) | Stmt::Other(_) => {}
         }
+    }
+
+    /// `for (i = 0; i < N; i++) acc += buf[i];` over a buffer this function has just
+    /// stored a sample into: a moving average re-summed on every call.
+    fn resummed_loop(
+        &self,
+        init: &[Stmt],
+        cond: Option<&Expr>,
+        body: &Stmt,
+        span: Span,
+    ) -> Option<Candidate> {
+        let var = match init.first()? {
+            Stmt::Decl(d) => d.first().map(|d| d.name.clone())?,
+            Stmt::Expr(Expr {
+                kind: ExprKind::Assign { target, .. },
+                ..
+            }) => target.to_string(),
+            _ => return None,
+        };
+        let ExprKind::Binary {
+            op: BinaryOp::Lt,
+            lhs,
+            rhs: bound,
+        } = &cond?.kind
+        else {
+            return None;
+        };
+        if lhs.to_string() != var {
+            return None;
+        }
+        let single = match body {
+            Stmt::Block(items) if items.len() == 1 => &items[0],
+            other => other,
+        };
+        let Stmt::Expr(Expr {
+            kind: ExprKind::Assign { op, target, value },
+            ..
+        }) = single
+        else {
+            return None;
+        };
+        let element = match (op, &value.kind) {
+            (Some(BinaryOp::Add), _) => value,
+            (
+                None,
+                ExprKind::Binary {
+                    op: BinaryOp::Add,
+                    lhs,
+                    rhs,
+                },
+            ) if lhs.to_string() == target.to_string() => rhs,
+            _ => return None,
+        };
+        let ExprKind::Index { base, index } = &element.kind else {
+            return None;
+        };
+        let ExprKind::Ident(acc) = &target.kind else {
+            return None;
+        };
+        if index.to_string() != var || !self.is_plain_local(acc) {
+            return None;
+        }
+        let prefix = format!("{base}[");
+        let (_, stored) = self
+            .writes
+            .iter()
+            .rev()
+            .find(|(t, v)| t.starts_with(&prefix) && !v.contains(&prefix))?;
+        let input = crate::parse::parse_expression(stored, span)?;
+        Some(Candidate {
+            function: self.function,
+            state: (**base).clone(),
+            new_value: input,
+            span,
+            definition: None,
+            buffer_writes: Vec::new(),
+            locals: self.locals_snapshot(),
+            resummed_bound: Some((**bound).clone()),
+        })
     }
 
     /// After an `if`: a local that one branch clamps (the condition tests it) keeps its
@@ -717,6 +806,7 @@ impl<'p> Walker<'p> {
                             definition,
                             buffer_writes: Vec::new(),
                             locals,
+                            resummed_bound: None,
                         },
                         None,
                     ));
@@ -779,6 +869,7 @@ impl<'p> Walker<'p> {
                 definition,
                 buffer_writes: Vec::new(),
                 locals,
+                resummed_bound: None,
             },
             None,
         ));
@@ -1177,6 +1268,9 @@ fn atom_values(atoms: &[(String, AtomKind)], leaves: &[f64]) -> Vec<f64> {
 fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Option<Smoother> {
     let function = program.function(c.function);
     let scope = c.scope();
+    if let Some(bound) = &c.resummed_bound {
+        return resummed(program, c, bound, options);
+    }
     let shift_eval = |e: &Expr| -> Option<f64> {
         Evaluator::new(program)
             .eval(e, &scope)
@@ -1187,6 +1281,19 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
 
     // Evaluate the leaves that are constants where the update stands.
     let mut evaluator = Evaluator::new(program);
+    // Shift amounts are part of the coefficient: record their derivation too.
+    c.new_value.walk(&mut |e| {
+        if let ExprKind::Binary {
+            op: BinaryOp::Shr | BinaryOp::Shl,
+            rhs,
+            ..
+        } = &e.kind
+        {
+            if !matches!(rhs.kind, ExprKind::Int { .. }) {
+                let _ = evaluator.eval(rhs, &scope);
+            }
+        }
+    });
     let mut leaf_values: Vec<Option<f64>> = Vec::with_capacity(aff.atoms.len());
     let mut unknown_reasons: Vec<eval::Unknown> = Vec::new();
     let input_ids: Vec<AtomId> = aff.inputs.iter().map(|(a, _)| *a).collect();
@@ -1564,6 +1671,58 @@ fn arithmetic_of(state_type: &Option<CType>, update: &Expr) -> Arithmetic {
     } else {
         Arithmetic::Integer
     }
+}
+
+/// A buffer summed afresh each call: a moving average over the loop's bound.
+fn resummed(
+    program: &Program,
+    c: &Candidate,
+    bound: &Expr,
+    options: &RecogniseOptions,
+) -> Option<Smoother> {
+    let mut evaluator = Evaluator::new(program);
+    let n = evaluator.eval(bound, &c.scope()).ok()?.as_f64();
+    if !(n >= 1.0 && n <= u32::MAX as f64 && n.fract() == 0.0) {
+        return None;
+    }
+    let window = n as u32;
+    let element_type = match eval::place_type(program, Some(c.function), &c.state) {
+        Some(CType::Array(inner, _)) | Some(CType::Pointer(inner)) => {
+            Some(program.resolve_type(&inner))
+        }
+        _ => None,
+    };
+    let aff = Affine {
+        atoms: vec![(c.new_value.to_string(), AtomKind::Leaf(c.new_value.clone()))],
+        state_atom: 0,
+        alpha: Poly::constant(1.0 / n),
+        inputs: vec![(0, Poly::constant(1.0 / n))],
+        structural: true,
+    };
+    let integer = element_type.as_ref().is_some_and(CType::is_integer);
+    let mut smoother = build(
+        program,
+        c,
+        options,
+        Form::MovingAverage,
+        Coefficient::Known(1.0 / n),
+        Some(window),
+        Some(1.0),
+        None,
+        integer.then_some(sim::DeadBand {
+            rising: 0,
+            falling: 0,
+        }),
+        evaluator.chain,
+        &aff,
+        element_type,
+        storage_of(program, c.function, &c.state),
+    );
+    smoother.update = format!(
+        "{}[..] = {}; sum of {}[0 .. {bound})",
+        c.state, c.new_value, c.state
+    );
+    Some(smoother)
 }
 
 /// A running sum `s += u - buf[i]` with `buf[i] = u` in the same body: window = the

@@ -126,13 +126,18 @@ pub fn render(scan: &Scan) -> String {
             .map(|d| format!("+{}/-{}", d.rising, d.falling))
             .unwrap_or_else(|| "-".into());
         let location = format!("{}:{}", scan.program.path(s.span.file), s.span.line);
+        let mut coefficient_text = coefficient(s);
+        if !s.variants.is_empty() {
+            // Other `#if` branches give other values: say so, the JSON lists them.
+            coefficient_text.push_str(&format!(" +{} #if", s.variants.len()));
+        }
         let form = format!("{} {}", s.form.name(), s.arithmetic.name());
         rows.push(vec![
             neutral(&location),
             neutral(&s.function),
             neutral(&s.state),
             form,
-            neutral(&coefficient(s)),
+            neutral(&coefficient_text),
             rate,
             cutoff,
             lag,
