@@ -52,6 +52,8 @@ pub struct Program {
     pub options: ProgramOptions,
     macros: HashMap<String, Vec<(usize, usize)>>,
     macro_active: HashMap<(usize, usize), bool>,
+    /// Object-like macro bodies parsed as expressions, on first use.
+    macro_exprs: HashMap<(usize, usize), std::sync::OnceLock<Option<Expr>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
     functions: HashMap<String, Vec<FuncRef>>,
@@ -61,6 +63,8 @@ pub struct Program {
     writes_by_target: HashMap<String, Vec<usize>>,
     calls: Vec<CallSite>,
     calls_by_callee: HashMap<String, Vec<usize>>,
+    /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
+    calls_by_address_arg: HashMap<String, Vec<usize>>,
 }
 
 impl Program {
@@ -71,6 +75,7 @@ impl Program {
             options,
             macros: HashMap::new(),
             macro_active: HashMap::new(),
+            macro_exprs: HashMap::new(),
             enums: HashMap::new(),
             globals: HashMap::new(),
             functions: HashMap::new(),
@@ -80,6 +85,7 @@ impl Program {
             writes_by_target: HashMap::new(),
             calls: Vec::new(),
             calls_by_callee: HashMap::new(),
+            calls_by_address_arg: HashMap::new(),
         };
         for (fi, file) in program.files.iter().enumerate() {
             for (i, m) in file.macros.iter().enumerate() {
@@ -127,6 +133,13 @@ impl Program {
             }
         }
         program.macro_active = active;
+        program.macro_exprs = program
+            .macros
+            .values()
+            .flatten()
+            .filter(|&&(fi, i)| program.files[fi].macros[i].params.is_none())
+            .map(|&r| (r, std::sync::OnceLock::new()))
+            .collect();
         program.collect_writes_and_calls();
         program
     }
@@ -188,6 +201,20 @@ impl Program {
                 .entry(c.callee.clone())
                 .or_default()
                 .push(i);
+            for a in &c.args {
+                if matches!(
+                    a.kind,
+                    ExprKind::Unary {
+                        op: UnaryOp::AddrOf,
+                        ..
+                    }
+                ) {
+                    let list = self.calls_by_address_arg.entry(a.to_string()).or_default();
+                    if list.last() != Some(&i) {
+                        list.push(i);
+                    }
+                }
+            }
         }
         self.writes = writes;
         self.calls = calls;
@@ -226,6 +253,22 @@ impl Program {
             .rev()
             .find(|r| self.macro_active.get(r).copied().unwrap_or(false))
             .map(|&(fi, i)| &self.files[fi].macros[i])
+    }
+
+    /// The active object-like macro of this name with its body parsed as an expression
+    /// (None when the body is not an expression). Parsed once, on first use.
+    pub fn macro_expr(&self, name: &str) -> Option<(&MacroDef, Option<&Expr>)> {
+        let refs = self.macros.get(name)?;
+        let r = refs
+            .iter()
+            .rev()
+            .find(|r| self.macro_active.get(r).copied().unwrap_or(false))?;
+        let m = &self.files[r.0].macros[r.1];
+        let cell = self.macro_exprs.get(r)?;
+        let expr = cell
+            .get_or_init(|| crate::parse::parse_expression(&m.body, m.span))
+            .as_ref();
+        Some((m, expr))
     }
 
     /// Every definition of a macro, active or not.
@@ -323,6 +366,15 @@ impl Program {
 
     pub fn calls(&self) -> &[CallSite] {
         &self.calls
+    }
+
+    /// Calls that pass `address` (the text of an `&x` expression) as an argument.
+    pub fn calls_passing(&self, address: &str) -> impl Iterator<Item = &CallSite> {
+        self.calls_by_address_arg
+            .get(address)
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.calls[i])
     }
 
     /// Whether a place is a counter: stepped by a constant (`n++`, `n += 1`, `n = n + 1`).

@@ -84,8 +84,18 @@ fn new_parser() -> Option<Parser> {
     Some(parser)
 }
 
+thread_local! {
+    /// One parser per thread, reused: making a parser costs more than parsing a snippet.
+    static PARSER: std::cell::RefCell<Option<Parser>> = std::cell::RefCell::new(new_parser());
+}
+
 fn parse_tree(source: &[u8]) -> Option<Tree> {
-    new_parser()?.parse(source, None)
+    PARSER.with(|cell| {
+        let mut parser = cell.borrow_mut();
+        let parser = parser.as_mut()?;
+        parser.reset();
+        parser.parse(source, None)
+    })
 }
 
 /// Lowers one C file. Never fails; problems are returned inside the IR.

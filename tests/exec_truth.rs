@@ -7,6 +7,11 @@
 //! side) against the record tauscan gives for the same file, function and state. It also
 //! checks that tauscan reports nothing in those fixtures beyond the driven cases.
 //!
+//! Some cases carry more (see `tests/exec/drive.h`): a moving average's executed window, a
+//! cascade's executed settling and ramp lag, a gain measured at two run-time time steps, the
+//! rate the fixture's own constants give. Those are held against the window, the `cascade`
+//! figures, the adaptive coefficient, and the rate and cutoff of the same record.
+//!
 //! The recogniser itself, the JSON schema and the simulation of truncation are tauscan's;
 //! the measuring is `drive_main.c`'s. This file only runs both and compares.
 #![allow(
@@ -35,6 +40,26 @@ struct Executed {
     dc_gain: f64,
     /// Rising and falling dead band in counts of the output; None for float forms.
     stall: Option<(f64, f64)>,
+    /// For a moving average: the update at which a step from rest first came out whole.
+    window: Option<u32>,
+    /// For the last stage of a cascade: what the whole chain did.
+    chain: Option<ExecutedChain>,
+    /// For a gain that follows a run-time time step: the first step under the other step.
+    alpha_alt: Option<f64>,
+    /// The update rate the fixture's own constants give, when they give one.
+    rate_hz: Option<f64>,
+}
+
+/// What a whole cascade did when it ran, as printed by `drive_main.c`.
+#[derive(Debug, Clone)]
+struct ExecutedChain {
+    stages: usize,
+    /// Updates (the first counted as 1) to first reach 1 - 1/e, 90 %, 95 % and 99 % of a
+    /// step, keyed as tauscan keys its `settle` object.
+    settle: Vec<(&'static str, f64)>,
+    /// Delay behind a ramp in samples: input minus output over the slope, after a long
+    /// ramp.
+    lag: f64,
 }
 
 impl Executed {
@@ -157,18 +182,46 @@ fn execute_all_drivers() -> Vec<Executed> {
 
 fn parse_driver_line(file: &str, line: &str) -> Executed {
     let fields: Vec<&str> = line.split('\t').collect();
-    assert_eq!(fields.len(), 8, "{file}: malformed driver line {line:?}");
+    assert!(fields.len() >= 8, "{file}: malformed driver line {line:?}");
     let number = |i: usize| -> f64 {
         fields[i]
             .parse()
             .unwrap_or_else(|e| panic!("{file}: field {i} of {line:?}: {e}"))
     };
+    // After the eight fixed fields come key=value fields of the optional kinds of case.
+    let mut extra = std::collections::BTreeMap::new();
+    for field in &fields[8..] {
+        let (key, value) = field
+            .split_once('=')
+            .unwrap_or_else(|| panic!("{file}: field {field:?} of {line:?} is not key=value"));
+        let value: f64 = value
+            .parse()
+            .unwrap_or_else(|e| panic!("{file}: field {field:?} of {line:?}: {e}"));
+        extra.insert(key.to_string(), value);
+    }
     let integer = fields[2] == "1";
     let stall = if integer {
         Some((number(6), number(7)))
     } else {
         None
     };
+    let chain = extra.get("stages").map(|&stages| {
+        let settle_of = |key: &str| -> f64 {
+            *extra
+                .get(key)
+                .unwrap_or_else(|| panic!("{file}: {key} missing from {line:?}"))
+        };
+        ExecutedChain {
+            stages: stages as usize,
+            settle: vec![
+                ("63", settle_of("settle63")),
+                ("90", settle_of("settle90")),
+                ("95", settle_of("settle95")),
+                ("99", settle_of("settle99")),
+            ],
+            lag: settle_of("lag"),
+        }
+    });
     Executed {
         file: file.to_string(),
         function: fields[0].to_string(),
@@ -178,7 +231,21 @@ fn parse_driver_line(file: &str, line: &str) -> Executed {
         alpha: number(4),
         dc_gain: number(5),
         stall,
+        window: extra.get("window").map(|&n| n as u32),
+        chain,
+        alpha_alt: extra.get("alpha_alt").copied(),
+        rate_hz: extra.get("rate_hz").copied(),
     }
+}
+
+/// The exact -3 dB frequency of a first-order smoother of gain `alpha` updated at `rate_hz`,
+/// or None when its gain stays above -3 dB up to Nyquist.
+///
+/// Source: DOMAIN first-order section formula, sin(wc / 2) = alpha / (2 sqrt(1 - alpha)),
+/// fc = wc fs / (2 pi); it has a solution only while that right side is at most 1.
+fn exact_cutoff_hz(alpha: f64, rate_hz: f64) -> Option<f64> {
+    let half_sine = alpha / (2.0 * (1.0 - alpha).sqrt());
+    (half_sine <= 1.0).then(|| 2.0 * half_sine.asin() * rate_hz / (2.0 * std::f64::consts::PI))
 }
 
 /// The scan-root-relative file name of a record, with '/' separators.
@@ -205,24 +272,9 @@ fn describe(record: &Value) -> String {
     )
 }
 
-/// Compares one record with its execution; returns the disagreements, one per line.
-fn compare(case: &Executed, record: &Value) -> Vec<String> {
-    let mut problems = Vec::new();
+/// A smoother with a constant gain: the reported alpha against the executed first step.
+fn compare_alpha(case: &Executed, record: &Value, problems: &mut Vec<String>) {
     let label = case.label();
-
-    let arithmetic = record["arithmetic"].as_str().unwrap_or("<missing>");
-    let arithmetic_fits = if case.integer {
-        arithmetic == "integer" || arithmetic == "fixed"
-    } else {
-        arithmetic == "float"
-    };
-    if !arithmetic_fits {
-        problems.push(format!(
-            "{label}: arithmetic reported {arithmetic:?}, but the driver drives it as {}",
-            if case.integer { "integer" } else { "float" }
-        ));
-    }
-
     match record["alpha"].as_f64() {
         None => problems.push(format!(
             "{label}: alpha reported {}, executed {}",
@@ -246,6 +298,136 @@ fn compare(case: &Executed, record: &Value) -> Vec<String> {
                 ));
             }
         }
+    }
+}
+
+/// A moving average: no alpha, the form, and the reported window against the executed one.
+fn compare_window(case: &Executed, record: &Value, window: u32, problems: &mut Vec<String>) {
+    let label = case.label();
+    // Source: execution of the fixture with the system C compiler (cc): a step from rest
+    // came out whole at update `window` and not before, which is what a running sum over
+    // that many samples does.
+    if record["form"].as_str() != Some("moving-average") {
+        problems.push(format!(
+            "{label}: form reported {}, executed a moving average of {window}",
+            record["form"]
+        ));
+    }
+    if record["window"].as_u64() != Some(u64::from(window)) {
+        problems.push(format!(
+            "{label}: window reported {}, executed {window}",
+            record["window"]
+        ));
+    }
+    // A moving average has a window, not a smoothing coefficient (schema 1).
+    if !record["alpha"].is_null() {
+        problems.push(format!(
+            "{label}: alpha reported {} for a moving average, expected null",
+            record["alpha"]
+        ));
+    }
+}
+
+/// A gain computed from a time step given at run time: no constant alpha, an adaptive rate,
+/// and a formula; the execution shows that the gain does change with the step.
+fn compare_adaptive(case: &Executed, record: &Value, alpha_alt: f64, problems: &mut Vec<String>) {
+    let label = case.label();
+    // Source: execution of the fixture with the system C compiler (cc): the first step under
+    // two time steps gave two gains, so no constant alpha describes the update.
+    if !record["alpha"].is_null() {
+        problems.push(format!(
+            "{label}: alpha reported {}, but the executed gain is {} or {alpha_alt} depending \
+             on the time step",
+            record["alpha"], case.alpha
+        ));
+    }
+    if record["rate_kind"].as_str() != Some("adaptive") {
+        problems.push(format!(
+            "{label}: rate_kind reported {}, expected \"adaptive\" (executed gain {} or \
+             {alpha_alt} depending on the time step)",
+            record["rate_kind"], case.alpha
+        ));
+    }
+    if record["alpha_formula"]
+        .as_str()
+        .is_none_or(|f| f.trim().is_empty())
+    {
+        problems.push(format!(
+            "{label}: alpha_formula reported {}, expected the gain's formula",
+            record["alpha_formula"]
+        ));
+    }
+    // A cutoff in Hz would need one gain; the executed gain has two.
+    if !record["cutoff_hz"].is_null() {
+        problems.push(format!(
+            "{label}: cutoff_hz reported {} for a gain that follows the time step",
+            record["cutoff_hz"]
+        ));
+    }
+}
+
+/// The rate of the fixture's own constants against the reported one, and the exact cutoff
+/// at that rate from the executed alpha against the reported cutoff.
+fn compare_rate(case: &Executed, record: &Value, rate: f64, problems: &mut Vec<String>) {
+    let label = case.label();
+    // Source: execution of the fixture with the system C compiler (cc), which evaluated the
+    // fixture's rate constant (1 / DT) in the driver.
+    match record["rate_hz"].as_f64() {
+        Some(reported) if ((reported - rate) / rate).abs() <= 1e-6 => {}
+        _ => problems.push(format!(
+            "{label}: rate_hz reported {}, the fixture's constants give {rate}",
+            record["rate_hz"]
+        )),
+    }
+    if case.window.is_some() || case.alpha_alt.is_some() {
+        return;
+    }
+    // Source: DOMAIN first-order section formula, and execution (the executed alpha and
+    // the rate above). The float first step carries about one rounding of alpha; the cutoff
+    // moves at most about twice as much, relative, for the alphas of the fixtures.
+    let expected = exact_cutoff_hz(case.alpha, rate);
+    let reported = record["cutoff_hz"].as_f64();
+    let agree = match (expected, reported) {
+        (Some(e), Some(r)) => ((r - e) / e).abs() <= 1e-5,
+        (None, None) => true,
+        _ => false,
+    };
+    if !agree {
+        problems.push(format!(
+            "{label}: cutoff_hz reported {}, exact cutoff of the executed alpha {} at {rate} Hz \
+             is {expected:?}",
+            record["cutoff_hz"], case.alpha
+        ));
+    }
+}
+
+/// Compares one record with its execution; returns the disagreements, one per line.
+fn compare(case: &Executed, record: &Value) -> Vec<String> {
+    let mut problems = Vec::new();
+    let label = case.label();
+
+    let arithmetic = record["arithmetic"].as_str().unwrap_or("<missing>");
+    let arithmetic_fits = if case.integer {
+        arithmetic == "integer" || arithmetic == "fixed"
+    } else {
+        arithmetic == "float"
+    };
+    if !arithmetic_fits {
+        problems.push(format!(
+            "{label}: arithmetic reported {arithmetic:?}, but the driver drives it as {}",
+            if case.integer { "integer" } else { "float" }
+        ));
+    }
+
+    if let Some(window) = case.window {
+        compare_window(case, record, window, &mut problems);
+    } else if let Some(alpha_alt) = case.alpha_alt {
+        compare_adaptive(case, record, alpha_alt, &mut problems);
+    } else {
+        compare_alpha(case, record, &mut problems);
+    }
+    if let Some(rate) = case.rate_hz {
+        compare_rate(case, record, rate, &mut problems);
     }
 
     // tauscan's dc_gain is the sum of the ideal weights; the execution below confirms that
@@ -383,4 +565,173 @@ fn nothing_is_reported_in_the_forms_beyond_the_driven_cases() {
         "reported but not a driven smoother:\n  {}",
         extras.join("\n  ")
     );
+}
+
+/// The one record of `report` for an executed case; panics with what was found otherwise.
+fn the_record<'a>(report: &'a [Value], case: &Executed) -> &'a Value {
+    let records: Vec<&Value> = report.iter().filter(|r| matches_case(r, case)).collect();
+    match records.as_slice() {
+        [record] => record,
+        other => panic!(
+            "{}: expected one record, found {:?}",
+            case.label(),
+            other.iter().map(|r| describe(r)).collect::<Vec<_>>()
+        ),
+    }
+}
+
+#[test]
+fn cascade_figures_match_the_executed_chain() {
+    let executed = executed_cases();
+    let report = forms_report();
+    let chains: Vec<(&Executed, &ExecutedChain)> = executed
+        .iter()
+        .filter_map(|case| case.chain.as_ref().map(|chain| (case, chain)))
+        .collect();
+    assert!(!chains.is_empty(), "no driver drives a whole cascade");
+    let mut problems = Vec::new();
+    for (case, chain) in chains {
+        let label = case.label();
+        let record = the_record(report, case);
+        let cascade = &record["cascade"];
+        if !cascade.is_object() {
+            problems.push(format!(
+                "{label}: the last stage of a chain of {} carries cascade {cascade}",
+                chain.stages
+            ));
+            continue;
+        }
+        // The stages are records of the same report, first to last, ending with this one.
+        let stages: Vec<&str> = cascade["stages"]
+            .as_array()
+            .map(|a| a.iter().filter_map(Value::as_str).collect())
+            .unwrap_or_default();
+        // Source: execution of the fixture with the system C compiler (cc): the driver ran
+        // a chain of this many stages.
+        if stages.len() != chain.stages {
+            problems.push(format!(
+                "{label}: cascade.stages {stages:?}, executed a chain of {}",
+                chain.stages
+            ));
+        }
+        if stages.last().copied() != record["id"].as_str() {
+            problems.push(format!(
+                "{label}: cascade.stages {stages:?} does not end with the record's own id {}",
+                record["id"]
+            ));
+        }
+        for id in &stages {
+            let stage = report.iter().find(|r| r["id"].as_str() == Some(id));
+            if stage.is_none_or(|r| r["function"] != record["function"]) {
+                problems.push(format!(
+                    "{label}: cascade stage {id} is not a record of {}",
+                    record["function"]
+                ));
+            }
+        }
+        for (key, samples) in &chain.settle {
+            // Source: execution of the fixture with the system C compiler (cc): the update,
+            // counting the first as 1, at which the chain's step response first reached the
+            // fraction (1 - 1/e for "63").
+            let reported = cascade["settle"][*key]["samples"].as_f64();
+            if reported != Some(*samples) {
+                problems.push(format!(
+                    "{label}: cascade.settle.{key}.samples reported {}, executed {samples}",
+                    cascade["settle"][*key]["samples"]
+                ));
+            }
+        }
+        // Source: execution of the fixture with the system C compiler (cc): input minus
+        // output over the slope after a long ramp.
+        match cascade["lag_samples"].as_f64() {
+            Some(lag) if (lag - chain.lag).abs() <= 1e-3 => {}
+            _ => problems.push(format!(
+                "{label}: cascade.lag_samples reported {}, executed {}",
+                cascade["lag_samples"], chain.lag
+            )),
+        }
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}
+
+#[test]
+fn filter_library_instances_have_their_own_cutoffs() {
+    let executed = executed_cases();
+    let report = forms_report();
+    let instances: Vec<&Executed> = executed
+        .iter()
+        .filter(|case| case.file == "filter_library.c")
+        .collect();
+    assert!(
+        instances.len() >= 4,
+        "filter_library.c drives {} instances, expected at least four",
+        instances.len()
+    );
+    let mut cutoffs: Vec<(String, f64)> = Vec::new();
+    let mut problems = Vec::new();
+    for case in &instances {
+        let rate = case
+            .rate_hz
+            .unwrap_or_else(|| panic!("{}: the driver gives no rate", case.label()));
+        // Source: DOMAIN first-order section formula, and execution (the executed alpha and
+        // the rate the fixture's constants give).
+        let expected = exact_cutoff_hz(case.alpha, rate).unwrap_or_else(|| {
+            panic!(
+                "{}: executed alpha {} has no cutoff",
+                case.label(),
+                case.alpha
+            )
+        });
+        let record = the_record(report, case);
+        match record["cutoff_hz"].as_f64() {
+            Some(reported) if ((reported - expected) / expected).abs() <= 1e-5 => {}
+            _ => problems.push(format!(
+                "{}: cutoff_hz reported {}, expected {expected}",
+                case.label(),
+                record["cutoff_hz"]
+            )),
+        }
+        cutoffs.push((case.state.clone(), expected));
+    }
+    // Source: execution of the fixture with the system C compiler (cc): each instance was
+    // set up with its own cutoff, so no two executed gains give the same cutoff.
+    for (i, (state_a, a)) in cutoffs.iter().enumerate() {
+        for (state_b, b) in &cutoffs[i + 1..] {
+            assert!(
+                ((a - b) / a).abs() > 0.01,
+                "{state_a} and {state_b} execute with the same cutoff {a} Hz: the fixture \
+                 does not give its instances their own cutoffs"
+            );
+        }
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}
+
+#[test]
+fn a_gain_from_a_run_time_time_step_is_reported_adaptive() {
+    let executed = executed_cases();
+    let report = forms_report();
+    let adaptive: Vec<&Executed> = executed
+        .iter()
+        .filter(|case| case.alpha_alt.is_some())
+        .collect();
+    assert!(
+        !adaptive.is_empty(),
+        "no driver runs a gain under two time steps"
+    );
+    let mut problems = Vec::new();
+    for case in adaptive {
+        let alpha_alt = case.alpha_alt.unwrap_or(f64::NAN);
+        // Source: execution of the fixture with the system C compiler (cc): the same update
+        // under two time steps moved its state by different fractions of the step.
+        assert!(
+            ((case.alpha - alpha_alt) / case.alpha).abs() > 0.01,
+            "{}: executed gains {} and {alpha_alt} under two time steps: the fixture's gain \
+             does not follow the time step",
+            case.label(),
+            case.alpha
+        );
+        compare_adaptive(case, the_record(report, case), alpha_alt, &mut problems);
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
 }

@@ -311,29 +311,38 @@ impl<'p> Evaluator<'p> {
                 };
             }
         }
-        let chosen = match &self.macro_override {
-            Some(m) if m.name == name => Some(m.clone()),
-            _ => self.program.active_macro(name).cloned(),
-        };
-        if let Some(m) = chosen {
-            if m.params.is_none() {
-                return self.guarded(format!("macro {name}"), |ev| {
-                    let step = ev.record_named(
-                        m.span.file,
-                        m.span.line,
-                        format!("#define {} {}", m.name, m.body),
-                        Some(name),
-                    );
-                    let Some(body) = crate::parse::parse_expression(&m.body, m.span) else {
-                        return Err(Unknown::new(format!(
-                            "the body of macro {name} is not an expression"
-                        )));
-                    };
-                    let v = ev.eval(&body, &Scope::default());
-                    ev.fill(step, &v);
-                    v
-                });
+        // The active definition's body is parsed once per program; an override (another
+        // preprocessor branch, for variants) is parsed here.
+        let chosen: Option<(MacroDef, Option<Expr>)> = match &self.macro_override {
+            Some(m) if m.name == name => {
+                Some((m.clone(), crate::parse::parse_expression(&m.body, m.span)))
             }
+            _ => self
+                .program
+                .macro_expr(name)
+                .map(|(m, e)| (m.clone(), e.cloned())),
+        };
+        if let Some((m, body)) = chosen {
+            return self.guarded(format!("macro {name}"), |ev| {
+                let step = ev.record_named(
+                    m.span.file,
+                    m.span.line,
+                    format!("#define {} {}", m.name, m.body),
+                    Some(name),
+                );
+                let Some(body) = body else {
+                    return Err(Unknown::new(format!(
+                        "the body of macro {name} is not an expression"
+                    )));
+                };
+                let v = ev.eval(&body, &Scope::default());
+                ev.fill(step, &v);
+                v
+            });
+        }
+        if self.program.active_macro(name).is_some() {
+            // A function-like macro named without arguments.
+            return Err(Unknown::new(format!("`{name}` is a function-like macro")));
         } else if self.program.is_macro(name) {
             return Err(Unknown::new(format!(
                 "macro {name} is not defined with the active preprocessor values"
@@ -504,13 +513,7 @@ impl<'p> Evaluator<'p> {
         if let ExprKind::Field { base, field, .. } = &expr.kind {
             let base_text = base.to_string();
             let address = format!("&{base}");
-            let calls: Vec<_> = self
-                .program
-                .calls()
-                .iter()
-                .filter(|c| c.args.iter().any(|a| a.to_string() == address))
-                .cloned()
-                .collect();
+            let calls: Vec<_> = self.program.calls_passing(&address).cloned().collect();
             for call in calls {
                 let Some(callee) = self.program.function_by_name(&call.callee) else {
                     continue;

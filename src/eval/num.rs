@@ -97,10 +97,12 @@ pub fn int_range(ty: IntType) -> (i128, i128) {
 /// Wraps `value` into `ty` the way two's-complement hardware does.
 pub fn wrap(value: i128, ty: IntType) -> (i128, bool) {
     let bits = ty.bits.clamp(1, 127) as u32;
-    let modulus = 1i128 << bits;
-    let mut v = value.rem_euclid(modulus);
-    if ty.signed && v >= modulus / 2 {
-        v -= modulus;
+    // Keep the low `bits` bits (a mask, not a division: this is on the simulation's hot
+    // path), then sign-extend for signed types.
+    let mask = (1i128 << bits) - 1;
+    let mut v = value & mask;
+    if ty.signed && v >> (bits - 1) & 1 == 1 {
+        v -= 1i128 << bits;
     }
     (v, v != value)
 }

@@ -175,19 +175,30 @@ const MAX_INSTANCE_DEPTH: u32 = 4;
 
 /// Finds every smoother of the program.
 pub fn recognise(program: &Program, options: &RecogniseOptions) -> Recognition {
-    let mut candidates = Vec::new();
-    for f in program.functions() {
-        let function = program.function(f);
-        if function.name == "tauscan_snippet" || !program.condition_holds(&function.condition) {
-            continue;
-        }
-        let mut walker = Walker::new(program, f);
-        walker.block(&function.body);
-        candidates.extend(walker.finish());
-    }
+    use rayon::prelude::*;
+    let functions: Vec<FuncRef> = program.functions().collect();
+    // Functions are independent of each other here: walk and judge them in parallel, then
+    // put the results back in one deterministic order.
+    let parts: Vec<Recognition> = functions
+        .par_iter()
+        .map(|&f| {
+            let mut part = Recognition::default();
+            let function = program.function(f);
+            if function.name == "tauscan_snippet" || !program.condition_holds(&function.condition) {
+                return part;
+            }
+            let mut walker = Walker::new(program, f);
+            walker.block(&function.body);
+            for candidate in walker.finish() {
+                expand_candidate(program, candidate, 0, &mut part, options);
+            }
+            part
+        })
+        .collect();
     let mut result = Recognition::default();
-    for candidate in candidates {
-        expand_candidate(program, candidate, 0, &mut result, options);
+    for part in parts {
+        result.smoothers.extend(part.smoothers);
+        result.notes.extend(part.notes);
     }
     link_cascades(&mut result.smoothers);
     result.smoothers.sort_by(|a, b| {
@@ -899,13 +910,11 @@ impl<'p> Walker<'p> {
     /// A place written through a macro that names it (`#define STATE g_vent.y`).
     fn subst_place(&self, target: &Expr) -> Expr {
         if let ExprKind::Ident(name) = &target.kind {
-            if let Some(m) = self.program.active_macro(name) {
-                if m.params.is_none() {
-                    if let Some(e) = crate::parse::parse_expression(&m.body, target.span) {
-                        if e.is_place() {
-                            return e;
-                        }
-                    }
+            if let Some((_, Some(e))) = self.program.macro_expr(name) {
+                if e.is_place() {
+                    let mut e = e.clone();
+                    crate::parse::relocate_expr(&mut e, target.span);
+                    return e;
                 }
             }
         }
@@ -928,12 +937,14 @@ impl<'p> Walker<'p> {
                 if let Some(v) = self.env.get(name) {
                     return locals.then(|| v.expr.clone());
                 }
-                let m = self.program.active_macro(name)?;
-                if m.params.is_some() || self.is_plain_local(name) {
+                let (_, body) = self.program.macro_expr(name)?;
+                let body = body?;
+                if !body.is_place() || self.is_plain_local(name) {
                     return None;
                 }
-                let body = crate::parse::parse_expression(&m.body, x.span)?;
-                body.is_place().then_some(body)
+                let mut body = body.clone();
+                crate::parse::relocate_expr(&mut body, x.span);
+                Some(body)
             }
             ExprKind::Call { callee, args } => {
                 let ExprKind::Ident(name) = &callee.kind else {

@@ -76,6 +76,9 @@ impl Node {
     }
 }
 
+/// The state and up to seven inputs.
+const MAX_SLOTS: usize = 8;
+
 /// An update ready to run: slot 0 is the state, the others are inputs.
 #[derive(Debug, Clone)]
 pub struct Update {
@@ -96,12 +99,20 @@ pub struct DeadBand {
 
 impl Update {
     fn step(&self, state: i128, input: i128) -> Option<i128> {
-        let mut slots = Vec::with_capacity(1 + self.input_types.len());
-        slots.push(int_of(state, &self.state_type, self.target)?);
-        for ty in &self.input_types {
-            slots.push(int_of(input, ty, self.target)?);
+        // Slots live on the stack: this runs hundreds of thousands of times per smoother.
+        let mut slots = [Num::Int {
+            value: 0,
+            ty: self.target.int(true),
+        }; MAX_SLOTS];
+        let used = 1 + self.input_types.len();
+        if used > MAX_SLOTS {
+            return None;
         }
-        let v = self.new_value.eval(&slots, self.target).ok()?;
+        slots[0] = int_of(state, &self.state_type, self.target)?;
+        for (i, ty) in self.input_types.iter().enumerate() {
+            slots[i + 1] = int_of(input, ty, self.target)?;
+        }
+        let v = self.new_value.eval(&slots[..used], self.target).ok()?;
         match v.convert(&self.state_type, self.target) {
             Num::Int { value, .. } => Some(value),
             Num::Float { .. } => None,
@@ -114,6 +125,51 @@ impl Update {
         } else {
             (state as f64 / self.scale).floor() as i128
         }
+    }
+
+    /// Whether moving state and input together by the same amount moves the result by that
+    /// amount too, on a sample of shifts and distances.
+    fn translation_invariant(&self, base: i128, span: i128) -> bool {
+        let distances = [1, 2, 3, span / 7, span / 3, span / 2, span - 1];
+        let shifts = [1i128, 2, 3, 5, 7, 11, 13, 64, 100, 255, 1000, 4097];
+        for d in distances {
+            for sign in [1i128, -1] {
+                let u = base + sign * d.max(1);
+                let Some(reference) = self.step(base, u) else {
+                    return false;
+                };
+                for shift in shifts {
+                    match self.step(base + shift, u + shift) {
+                        Some(v) if v - shift == reference => {}
+                        _ => return false,
+                    }
+                }
+            }
+        }
+        true
+    }
+
+    /// The largest `d` up to `limit` for which one update from `s` with the input at
+    /// `out + direction * d` leaves the state where it was.
+    fn stall_run(
+        &self,
+        s: i128,
+        out: i128,
+        limit: i128,
+        direction: i128,
+        gap: i128,
+    ) -> Option<u64> {
+        let mut last = 0i128;
+        let mut d = 1i128;
+        while d <= limit {
+            if self.step(s, out + direction * d)? == s {
+                last = d;
+            } else if d - last > gap {
+                break;
+            }
+            d += 1;
+        }
+        Some(last as u64)
     }
 
     /// The dead band, for an integer state; None for float state or when the update
@@ -140,6 +196,13 @@ impl Update {
             1 << 12
         };
         let bases = ((1i128 << 20) / span.max(1)).clamp(4, 64);
+        // Stalls come in runs no further apart than about one time constant; once this
+        // many steps past the last stall have all moved, no further stall is coming.
+        let gap = if alpha > 0.0 && alpha.is_finite() {
+            ((2.0 / alpha).ceil() as i128 + 16).min(span)
+        } else {
+            span
+        };
         // Truncation toward zero behaves differently below zero (C11 6.5.5), so a signed
         // state is tried on both sides. A scaled state is read out by a division or a shift
         // whose rounding below zero is not known here, and its band is under one count.
@@ -147,6 +210,13 @@ impl Update {
         if input_min < -8 && state_min < 0 && scale <= 1.0 {
             starts.push(-((-input_min) / 3).clamp(1, 1000) - bases);
         }
+        // Most spellings see the state and input only through their difference, so the
+        // stall does not depend on where the state rests: one start point then covers all.
+        let bases = if scale <= 1.0 && self.translation_invariant(base_out, span) {
+            1
+        } else {
+            bases
+        };
         let mut rising = 0u64;
         let mut falling = 0u64;
         for start in starts {
@@ -155,16 +225,8 @@ impl Update {
                 let out = self.output(s);
                 let up_limit = span.min(input_max - out);
                 let down_limit = span.min(out - input_min);
-                for d in 1..=up_limit.max(0) {
-                    if self.step(s, out + d)? == s {
-                        rising = rising.max(d as u64);
-                    }
-                }
-                for d in 1..=down_limit.max(0) {
-                    if self.step(s, out - d)? == s {
-                        falling = falling.max(d as u64);
-                    }
-                }
+                rising = rising.max(self.stall_run(s, out, up_limit, 1, gap)?);
+                falling = falling.max(self.stall_run(s, out, down_limit, -1, gap)?);
             }
         }
         Some(DeadBand { rising, falling })

@@ -12,7 +12,8 @@
 #define TAUSCAN_EXEC_DRIVE_H
 
 struct drive_case {
-    /* Name of the C function whose body holds the update, as tauscan reports it. */
+    /* Name of the C function whose body holds the update, as tauscan reports it (for an
+     * instance of a filter function or macro, the function that calls it). */
     const char *function;
     /* Text of the state expression, as tauscan reports it ("y", "g_vent.temp_f", "f->y"). */
     const char *state;
@@ -23,12 +24,34 @@ struct drive_case {
     double scale;
     /* Put the smoother at rest at y0 (output units). */
     void (*reset)(double y0);
-    /* One update with input u; returns the output (the state, or acc >> k for a scaled
-     * state). */
+    /* One update with input u; returns the output (the state, acc >> k for a scaled
+     * state, or the running sum divided by the window for a moving average). */
     double (*step)(double u);
     /* 1 when the state's type is signed and negative values are part of its range, so the
      * dead band is also measured around -scale/2; 0 for unsigned states. */
     int signed_range;
+
+    /* The fields below are optional: a designated initialiser leaves them zero or NULL,
+     * which means "not this kind of case". */
+
+    /* 1 when the case is a moving average (a running sum over a ring buffer): the driver
+     * then measures its window, the update at which a step from rest first comes out
+     * whole, and the step returns the sum divided by the window. */
+    int window;
+    /* For the last stage of a cascade: put every stage at rest at y0, and run one update
+     * of the whole chain with input u, returning the last stage's output. The driver then
+     * measures the chain's settling and its lag behind a ramp. */
+    void (*chain_reset)(double y0);
+    double (*chain_step)(double u);
+    /* How many stages the chain has, first to last, when chain_step is set. */
+    int chain_stages;
+    /* For a gain that follows a time step given at run time: the same update run with
+     * another time step than step uses (reset with reset). The driver then measures the
+     * first step with both. */
+    double (*step_alt)(double u);
+    /* The update rate in Hz as the fixture's own constants give it (1.0 / DT_S), when they
+     * state one; 0 when they do not. */
+    double rate_hz;
 };
 
 /* Defined by each <case>.drive.c, ended by an entry whose function is NULL. */

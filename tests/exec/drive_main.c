@@ -10,7 +10,22 @@
  * dc_gain is where a step of the scale comes to rest, divided by the scale. The stalls are
  * printed for integer forms only ("-" for float): the most counts the output rests below a
  * constant input it approached from below (rising), or above one it approached from above
- * (falling). Matching these figures with tauscan's is left to tests/exec_truth.rs.
+ * (falling).
+ *
+ * Cases of the optional kinds of drive.h add tab-separated key=value fields after these:
+ *
+ *   window=N                 a moving average: the update at which a step from rest first
+ *                            comes out whole (it must do so exactly, never before)
+ *   stages=S settle63=n settle90=n settle95=n settle99=n lag=x
+ *                            the last stage of a cascade: the updates (the first counted
+ *                            as 1) at which the chain's step response first reaches
+ *                            1 - 1/e, 90 %, 95 % and 99 % of the step, and its delay to a
+ *                            ramp in samples
+ *   alpha_alt=a              a gain that follows the time step: the first step run with
+ *                            the other time step
+ *   rate_hz=r                the update rate the fixture's own constants give
+ *
+ * Matching these figures with tauscan's is left to tests/exec_truth.rs.
  */
 #include <math.h>
 #include <stdio.h>
@@ -44,6 +59,62 @@ static double settle(const struct drive_case *c, double u, long hold)
         }
     }
     return last;
+}
+
+/* The window of a moving average: the first update at which the step response from rest
+ * at zero equals the step. A running sum has the whole step exactly once the ring holds
+ * nothing but the new input, so exact equality is the test, not a tolerance. */
+static int measure_window(const struct drive_case *c)
+{
+    c->reset(0.0);
+    for (long n = 1; n < STEP_CAP; n++) {
+        if (c->step(c->scale) == c->scale) {
+            printf("\twindow=%ld", n);
+            return 0;
+        }
+    }
+    fprintf(stderr, "%s %s: the step never came out whole\n", c->function, c->state);
+    return 1;
+}
+
+/* Settling and ramp lag of a whole cascade, driven through chain_reset/chain_step. */
+static int measure_chain(const struct drive_case *c)
+{
+    const double fractions[4] = {1.0 - exp(-1.0), 0.90, 0.95, 0.99};
+    const char *names[4] = {"63", "90", "95", "99"};
+    long first[4] = {0, 0, 0, 0};
+    int found = 0;
+    c->chain_reset(0.0);
+    for (long n = 1; n < STEP_CAP && found < 4; n++) {
+        double y = c->chain_step(c->scale);
+        for (int i = 0; i < 4; i++) {
+            if (first[i] == 0 && y >= fractions[i] * c->scale) {
+                first[i] = n;
+                found++;
+            }
+        }
+    }
+    if (found < 4) {
+        fprintf(stderr, "%s %s: the chain never settled\n", c->function, c->state);
+        return 1;
+    }
+    printf("\tstages=%d", c->chain_stages);
+    for (int i = 0; i < 4; i++) {
+        printf("\tsettle%s=%ld", names[i], first[i]);
+    }
+    /* The ramp climbs with slope 1 to end at zero, so that its last samples, where the
+     * lag is read, are small numbers with small rounding errors. Its start-up transient
+     * dies like the step response's remainder, which is under 1 % after the 99 % time; ten
+     * times that leaves under 1e-20 of it. */
+    long length = 10 * first[3] + 100;
+    double slope = 1.0;
+    c->chain_reset(-slope * (double)length);
+    double y = 0.0;
+    for (long n = 1; n <= length; n++) {
+        y = c->chain_step(slope * (double)(n - length));
+    }
+    printf("\tlag=%.17g", (0.0 - y) / slope);
+    return 0;
 }
 
 static int measure(const struct drive_case *c)
@@ -98,9 +169,24 @@ static int measure(const struct drive_case *c)
         snprintf(rising_text, sizeof rising_text, "%.0f", rising);
         snprintf(falling_text, sizeof falling_text, "%.0f", falling);
     }
-    printf("%s\t%s\t%d\t%.17g\t%.17g\t%.17g\t%s\t%s\n", c->function, c->state, c->integer,
+    printf("%s\t%s\t%d\t%.17g\t%.17g\t%.17g\t%s\t%s", c->function, c->state, c->integer,
            c->scale, alpha, dc, rising_text, falling_text);
-    return 0;
+    int failed = 0;
+    if (c->window) {
+        failed |= measure_window(c);
+    }
+    if (c->chain_step != NULL) {
+        failed |= measure_chain(c);
+    }
+    if (c->step_alt != NULL) {
+        c->reset(0.0);
+        printf("\talpha_alt=%.17g", c->step_alt(c->scale) / c->scale);
+    }
+    if (c->rate_hz > 0.0) {
+        printf("\trate_hz=%.17g", c->rate_hz);
+    }
+    printf("\n");
+    return failed;
 }
 
 int main(void)
