@@ -1763,7 +1763,7 @@ fn moving_average(
     let AtomKind::Leaf(leaving_expr) = &leaving.1 else {
         return None;
     };
-    let ExprKind::Index { base, .. } = &leaving_expr.kind else {
+    let ExprKind::Index { base, index } = &leaving_expr.kind else {
         return None;
     };
     let stored = c
@@ -1773,15 +1773,90 @@ fn moving_average(
     if !stored {
         return None;
     }
-    let ty = eval::place_type(program, Some(c.function), base)?;
-    let CType::Array(_, Some(size)) = ty else {
-        return None;
+    let whole = |n: f64| (n >= 1.0 && n <= u32::MAX as f64 && n.fract() == 0.0).then_some(n as u32);
+    let size = match eval::place_type(program, Some(c.function), base) {
+        Some(CType::Array(_, Some(size))) => Evaluator::new(program)
+            .eval(&size, &c.scope())
+            .ok()
+            .and_then(|v| whole(v.as_f64())),
+        _ => None,
     };
-    let n = Evaluator::new(program)
-        .eval(&size, &c.scope())
-        .ok()?
-        .as_f64();
-    (n >= 1.0 && n <= u32::MAX as f64 && n.fract() == 0.0).then_some(n as u32)
+    // The index may wrap before the end of the buffer: the window is where it wraps.
+    let wrap = index_wrap(program, c, index).and_then(whole);
+    match (size, wrap) {
+        (Some(a), Some(b)) => Some(a.min(b)),
+        (a, b) => a.or(b),
+    }
+}
+
+/// Where a ring index wraps: `i = (i + 1) % N`, or `if (i >= N) i = 0;` / `== N`.
+fn index_wrap(program: &Program, c: &Candidate, index: &Expr) -> Option<f64> {
+    let text = index.to_string();
+    let scope = c.scope();
+    for w in program.writes_to(&text) {
+        if let ExprKind::Binary {
+            op: BinaryOp::Rem,
+            rhs,
+            ..
+        } = &w.value.kind
+        {
+            if let Ok(v) = Evaluator::new(program).eval(rhs, &scope) {
+                return Some(v.as_f64());
+            }
+        }
+    }
+    let mut found = None;
+    let function = program.function(c.function);
+    visit_ifs(&function.body, &mut |cond, then| {
+        let ExprKind::Binary { op, lhs, rhs } = &cond.kind else {
+            return;
+        };
+        if lhs.to_string() != text || !matches!(op, BinaryOp::Ge | BinaryOp::Eq) {
+            return;
+        }
+        let mut resets = false;
+        crate::index::visit_stmts(std::slice::from_ref(then), &mut |e| {
+            if let ExprKind::Assign { op: None, target, value } = &e.kind {
+                resets |= target.to_string() == text
+                    && matches!(value.kind, ExprKind::Int { value: 0, .. });
+            }
+        });
+        if resets {
+            found = Evaluator::new(program)
+                .eval(rhs, &scope)
+                .ok()
+                .map(|v| v.as_f64());
+        }
+    });
+    found
+}
+
+fn visit_ifs(stmts: &[Stmt], f: &mut dyn FnMut(&Expr, &Stmt)) {
+    for stmt in stmts {
+        match stmt {
+            Stmt::If {
+                cond,
+                then,
+                otherwise,
+            } => {
+                f(cond, then);
+                visit_ifs(std::slice::from_ref(then), f);
+                if let Some(o) = otherwise {
+                    visit_ifs(std::slice::from_ref(o), f);
+                }
+            }
+            Stmt::Block(items) => visit_ifs(items, f),
+            Stmt::Loop { body, .. } | Stmt::Switch { body, .. } => {
+                visit_ifs(std::slice::from_ref(body), f)
+            }
+            Stmt::Conditional(branches) => {
+                for (_, b) in branches {
+                    visit_ifs(b, f);
+                }
+            }
+            _ => {}
+        }
+    }
 }
 
 /// Compiles the update for `sim`: the state in slot 0, the inputs in the next slots,
