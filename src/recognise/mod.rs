@@ -893,13 +893,33 @@ impl<'p> Walker<'p> {
             .collect()
     }
 
-    /// Like `subst`, but a temporary is put in only when its value involves `state`.
+    /// Like `subst`, but a temporary is put in only when its value involves `state`, and
+    /// a small helper function that is handed the state (`y = blend(y, u, k)`) is put in
+    /// with its arguments.
     fn subst_carrying(&self, e: &Expr, state: &Expr) -> Expr {
+        self.subst_carrying_depth(e, state, 0)
+    }
+
+    fn subst_carrying_depth(&self, e: &Expr, state: &Expr, depth: u32) -> Expr {
         let mut out = e.clone();
         substitute_in_place(&mut out, &|x: &Expr| match &x.kind {
             ExprKind::Ident(name) => {
                 let v = self.env.get(name)?;
                 v.expr.mentions(state).then(|| v.expr.clone())
+            }
+            ExprKind::Call { callee, args } => {
+                let ExprKind::Ident(name) = &callee.kind else {
+                    return None;
+                };
+                let hands_state = args.iter().any(|a| {
+                    a.mentions(state)
+                        || matches!(&a.kind, ExprKind::Ident(l) if self.env.get(l).is_some_and(|v| v.expr.mentions(state)))
+                });
+                if !hands_state || self.program.is_macro(name) || depth >= MAX_MACRO_DEPTH {
+                    return None;
+                }
+                let body = inline_function(self.program, name, args)?;
+                Some(self.subst_carrying_depth(&body, state, depth + 1))
             }
             _ => None,
         });
@@ -960,6 +980,45 @@ impl<'p> Walker<'p> {
         });
         out
     }
+}
+
+/// The value a small helper returns, with its parameters replaced by the arguments: its
+/// body may declare temporaries and must end in `return EXPR;`.
+fn inline_function(program: &Program, name: &str, args: &[Expr]) -> Option<Expr> {
+    let f = program.function_by_name(name)?;
+    let function = program.function(f);
+    if function.params.len() != args.len() || function.body.len() > 8 {
+        return None;
+    }
+    let mut map: HashMap<String, Expr> = function
+        .params
+        .iter()
+        .zip(args)
+        .map(|(p, a)| (p.name.clone(), a.clone()))
+        .collect();
+    for stmt in &function.body {
+        match stmt {
+            Stmt::Decl(decls) => {
+                for d in decls {
+                    let Some(Initializer::Expr(init)) = &d.init else {
+                        return None;
+                    };
+                    let value = substitute_idents(init, &map);
+                    map.insert(d.name.clone(), value);
+                }
+            }
+            Stmt::Return(Some(e), _) => {
+                let mut out = simplify(&substitute_idents(e, &map));
+                crate::parse::relocate_expr(
+                    &mut out,
+                    args.first().map(|a| a.span).unwrap_or(e.span),
+                );
+                return Some(out);
+            }
+            _ => return None,
+        }
+    }
+    None
 }
 
 /// What an atom stands for.
@@ -1816,7 +1875,12 @@ fn index_wrap(program: &Program, c: &Candidate, index: &Expr) -> Option<f64> {
         }
         let mut resets = false;
         crate::index::visit_stmts(std::slice::from_ref(then), &mut |e| {
-            if let ExprKind::Assign { op: None, target, value } = &e.kind {
+            if let ExprKind::Assign {
+                op: None,
+                target,
+                value,
+            } = &e.kind
+            {
                 resets |= target.to_string() == text
                     && matches!(value.kind, ExprKind::Int { value: 0, .. });
             }
