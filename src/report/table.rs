@@ -2,7 +2,7 @@
 //! with figures in Hz and seconds where the rate is known and in samples where it is not.
 //!
 //! Columns: where, function, state, form and arithmetic, coefficient, rate, cutoff, lag,
-//! time to 95 %, noise ratio, DC gain, dead band (rising/falling counts). A row's rate
+//! time to 63/90/95/99 %, noise ratio, DC gain, dead band (rising/falling counts). A row's rate
 //! source and coefficient chain are in the JSON; the table stays one line per smoother.
 
 use super::neutral;
@@ -48,6 +48,23 @@ pub fn seconds(v: f64) -> String {
     }
 }
 
+/// Time to 63, 90, 95 and 99 % of a step: in seconds with a rate, else in samples.
+fn settling(f: &crate::metrics::Figures) -> String {
+    let marks = [f.to_63, f.to_90, f.to_95, f.to_99];
+    if marks.iter().all(|m| m.seconds.is_some()) {
+        let values: Vec<f64> = marks.iter().filter_map(|m| m.seconds.map(|s| s.0)).collect();
+        let largest = values.iter().cloned().fold(0.0, f64::max);
+        let (factor, unit) = if largest < 1.0 { (1e3, "ms") } else { (1.0, "s") };
+        let parts: Vec<String> = values.iter().map(|v| sig3(v * factor)).collect();
+        return format!("{} {unit}", parts.join("/"));
+    }
+    let parts: Vec<String> = marks
+        .iter()
+        .map(|m| m.samples.map(|n| sig3(n.0)).unwrap_or_else(|| "?".into()))
+        .collect();
+    format!("{} smp", parts.join("/"))
+}
+
 fn coefficient(s: &crate::recognise::Smoother) -> String {
     if s.form == Form::MovingAverage {
         return s
@@ -78,7 +95,7 @@ pub fn render(scan: &Scan) -> String {
         "RATE",
         "CUTOFF",
         "LAG",
-        "95%",
+        "TO 63/90/95/99%",
         "NOISE",
         "DC",
         "DEAD BAND",
@@ -108,14 +125,7 @@ pub fn render(scan: &Scan) -> String {
                 None => format!("{} smp", sig3(x.lag.0)),
             },
         };
-        let settle = match own {
-            None => "-".into(),
-            Some(x) => match (x.to_95.seconds, x.to_95.samples) {
-                (Some(t), _) => seconds(t.0),
-                (None, Some(n)) => format!("{} smp", sig3(n.0)),
-                _ => "?".into(),
-            },
-        };
+        let settle = own.map(settling).unwrap_or_else(|| "-".into());
         let noise = own
             .and_then(|x| x.noise_ratio)
             .map(sig3)
@@ -156,11 +166,7 @@ pub fn render(scan: &Scan) -> String {
                 Some(t) => seconds(t.0),
                 None => format!("{} smp", sig3(fig.lag.0)),
             };
-            let settle = match (fig.to_95.seconds, fig.to_95.samples) {
-                (Some(t), _) => seconds(t.0),
-                (None, Some(n)) => format!("{} smp", sig3(n.0)),
-                _ => "?".into(),
-            };
+            let settle = settling(fig);
             rows.push(vec![
                 String::new(),
                 String::new(),
