@@ -14,5 +14,6 @@ pub mod quantity;
 pub mod recognise;
 pub mod report;
 pub mod scan;
+pub mod spec;
 pub mod units;
 pub mod walk;

@@ -226,14 +226,20 @@ fn main() -> ExitCode {
                 e.kind(),
                 clap::error::ErrorKind::DisplayHelp | clap::error::ErrorKind::DisplayVersion
             );
-            let _ = e.print();
+            if is_help {
+                let _ = e.print();
+            } else {
+                eprint!("{}", report::neutral_keep_newlines(&e.render().to_string()));
+            }
             return ExitCode::from(if is_help { 0 } else { Status::ToolError as u8 });
         }
     };
     match run(cli) {
         Ok(status) => ExitCode::from(status as u8),
         Err(e) => {
-            eprintln!("tauscan: error: {e:#}");
+            // Arguments (paths, -D values) can carry escape sequences from whoever named a
+            // branch or a file; they never reach the terminal raw.
+            eprintln!("tauscan: error: {}", report::neutral(&format!("{e:#}")));
             ExitCode::from(Status::ToolError as u8)
         }
     }

@@ -98,12 +98,81 @@ fn parse_tree(source: &[u8]) -> Option<Tree> {
     })
 }
 
+/// Blanks comments inside preprocessor directives (keeping every byte's position and the
+/// newlines): the grammar reads `#define K (3 /* note */)` as an error, and firmware writes
+/// such comments all the time. Comments elsewhere are kept (they carry `tauscan:` tags).
+fn blank_directive_comments(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
+    if !source.contains(&b'#') || !source.windows(2).any(|w| w == b"/*" || w == b"//") {
+        return std::borrow::Cow::Borrowed(source);
+    }
+    let mut out = source.to_vec();
+    let mut i = 0;
+    let mut line_start = true;
+    let mut in_directive = false;
+    while i < out.len() {
+        let c = out[i];
+        if line_start {
+            let mut j = i;
+            while j < out.len() && (out[j] == b' ' || out[j] == b'\t') {
+                j += 1;
+            }
+            in_directive = j < out.len() && out[j] == b'#';
+            line_start = false;
+        }
+        match c {
+            b'\n' => {
+                // A continued directive goes on after a backslash-newline.
+                let continued = i > 0 && out[i - 1] == b'\\';
+                line_start = true;
+                if continued && in_directive {
+                    line_start = false;
+                }
+                i += 1;
+            }
+            b'"' | b'\'' => {
+                let quote = c;
+                i += 1;
+                while i < out.len() && out[i] != quote && out[i] != b'\n' {
+                    if out[i] == b'\\' {
+                        i += 1;
+                    }
+                    i += 1;
+                }
+                i += 1;
+            }
+            b'/' if in_directive && out.get(i + 1) == Some(&b'*') => {
+                let mut j = i + 2;
+                while j + 1 < out.len() && !(out[j] == b'*' && out[j + 1] == b'/') {
+                    j += 1;
+                }
+                let end = (j + 2).min(out.len());
+                for b in &mut out[i..end] {
+                    if *b != b'\n' {
+                        *b = b' ';
+                    }
+                }
+                i = end;
+            }
+            b'/' if in_directive && out.get(i + 1) == Some(&b'/') => {
+                while i < out.len() && out[i] != b'\n' {
+                    out[i] = b' ';
+                    i += 1;
+                }
+            }
+            _ => i += 1,
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
 /// Lowers one C file. Never fails; problems are returned inside the IR.
 pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
     let mut ir = FileIr {
         file,
         ..FileIr::default()
     };
+    let source = blank_directive_comments(source);
+    let source: &[u8] = &source;
     let Some(tree) = parse_tree(source) else {
         ir.problems.push(ParseProblem {
             span: Span {
@@ -122,12 +191,25 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
         ir: &mut ir,
         errors: 0,
         first_error: None,
+        nesting: 0,
+        too_deep: None,
     };
     let root = tree.root_node();
     lower.top_items(root, &Condition::default());
-    if lower.errors > 0 {
-        let span = lower.first_error.unwrap_or_default();
-        let count = lower.errors;
+    let too_deep = lower.too_deep;
+    let errors = lower.errors;
+    let first_error = lower.first_error;
+    if let Some(span) = too_deep {
+        ir.problems.push(ParseProblem {
+            span,
+            message: format!(
+                "nesting deeper than {MAX_DEPTH} levels; what is inside was not read, smoothers there may be missed"
+            ),
+        });
+    }
+    if errors > 0 {
+        let span = first_error.unwrap_or_default();
+        let count = errors;
         ir.problems.push(ParseProblem {
             span,
             message: format!(
@@ -164,9 +246,11 @@ fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
         ir: &mut ir,
         errors: 0,
         first_error: None,
+        nesting: 0,
+        too_deep: None,
     };
     lower.top_items(tree.root_node(), &Condition::default());
-    if lower.errors > 0 {
+    if lower.errors > 0 || lower.too_deep.is_some() {
         return None;
     }
     let mut function = ir.functions.pop()?;
@@ -299,6 +383,10 @@ struct Lower<'a> {
     ir: &'a mut FileIr,
     errors: u32,
     first_error: Option<Span>,
+    /// Nesting of top-level items (preprocessor groups, struct definitions).
+    nesting: u32,
+    /// The first place where nesting went past a limit and the inside was not read.
+    too_deep: Option<Span>,
 }
 
 fn named_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
@@ -331,6 +419,12 @@ impl Lower<'_> {
         }
     }
 
+    fn note_too_deep(&mut self, node: Node) {
+        if self.too_deep.is_none() {
+            self.too_deep = Some(self.span(node));
+        }
+    }
+
     fn note_error(&mut self, node: Node) {
         self.errors += 1;
         if self.first_error.is_none() {
@@ -357,6 +451,16 @@ impl Lower<'_> {
     }
 
     fn top_item(&mut self, node: Node, cond: &Condition) {
+        if self.nesting >= MAX_DEPTH {
+            self.note_too_deep(node);
+            return;
+        }
+        self.nesting += 1;
+        self.top_item_inner(node, cond);
+        self.nesting -= 1;
+    }
+
+    fn top_item_inner(&mut self, node: Node, cond: &Condition) {
         if node.is_error() || node.is_missing() {
             self.note_error(node);
             // Keep what tree-sitter could still make of the inside.
@@ -576,6 +680,17 @@ impl Lower<'_> {
     /// Records a struct definition (when it has a body) and returns its name; anonymous
     /// structs get a name from their position so typedefs can point at them.
     fn struct_specifier(&mut self, node: Node) -> String {
+        if self.nesting >= MAX_DEPTH {
+            self.note_too_deep(node);
+            return format!("<deep@{}>", node.start_byte());
+        }
+        self.nesting += 1;
+        let name = self.struct_specifier_inner(node);
+        self.nesting -= 1;
+        name
+    }
+
+    fn struct_specifier_inner(&mut self, node: Node) -> String {
         let name = node
             .child_by_field_name("name")
             .map(|n| self.text(n))
@@ -771,6 +886,10 @@ impl Lower<'_> {
     }
 
     fn initializer(&mut self, node: Node, depth: u32) -> Initializer {
+        if depth > MAX_DEPTH {
+            self.note_too_deep(node);
+            return Initializer::List(Vec::new());
+        }
         if node.kind() == kind::INITIALIZER_LIST {
             let mut items = Vec::new();
             for item in named_children(node) {
@@ -823,6 +942,7 @@ impl Lower<'_> {
 
     fn stmt(&mut self, node: Node, depth: u32) -> Option<Stmt> {
         if depth > MAX_DEPTH {
+            self.note_too_deep(node);
             return Some(Stmt::Other(self.span(node)));
         }
         if node.is_error() {
@@ -984,6 +1104,7 @@ impl Lower<'_> {
     fn expr(&mut self, node: Node, depth: u32) -> Expr {
         let span = self.span(node);
         if depth > MAX_DEPTH {
+            self.note_too_deep(node);
             return self.opaque(node);
         }
         if node.is_error() {
@@ -1462,6 +1583,16 @@ mod tests {
     fn expression_snippets_parse() {
         let e = parse_expression("(y) += ((u) - (y)) >> (3)", Span::default()).unwrap();
         assert_eq!(e.to_string(), "y += (u - y) >> 3");
+    }
+
+    #[test]
+    fn comments_inside_defines_do_not_break_them() {
+        let src = "#define K (3 /* counts */)\n#define J 4 // per tick\n/* a tauscan: tag kept */\nint x;\n";
+        let ir = parse_file(FileId(0), src.as_bytes());
+        assert!(ir.problems.is_empty(), "{:?}", ir.problems);
+        assert_eq!(ir.macros[0].body, "(3 )");
+        assert_eq!(ir.macros[1].body, "4");
+        assert_eq!(ir.tags.len(), 1);
     }
 
     #[test]

@@ -66,8 +66,24 @@ pub fn glob_match(pattern: &str, text: &str) -> bool {
     go(pattern.as_bytes(), text.as_bytes())
 }
 
-/// Reads, parses and analyses the files under `options.paths`.
+/// Stack for each worker: lowering and recognition recurse over the syntax, which a
+/// generated state machine can nest deeply, and debug builds use large frames.
+const WORKER_STACK: usize = 64 << 20;
+
+/// Reads, parses and analyses the files under `options.paths`, on a pool of worker
+/// threads with deep stacks (the whole scan runs there, not only the parsing).
 pub fn run(options: &ScanOptions) -> Scan {
+    match rayon::ThreadPoolBuilder::new()
+        .stack_size(WORKER_STACK)
+        .build()
+    {
+        Ok(pool) => pool.install(|| run_here(options)),
+        // Without a pool of our own, the global one still does the work.
+        Err(_) => run_here(options),
+    }
+}
+
+fn run_here(options: &ScanOptions) -> Scan {
     let walked: WalkResult = walk::walk(&options.paths, &|rel| excluded(&options.exclude, rel));
     let mut notes: Vec<ScanNote> = walked
         .problems
@@ -76,10 +92,10 @@ pub fn run(options: &ScanOptions) -> Scan {
             file: p.path.clone(),
             line: None,
             message: p.message.clone(),
-            incomplete: true,
+            incomplete: p.incomplete,
         })
         .collect();
-    let mut incomplete = walked.missing_inputs || !walked.problems.is_empty();
+    let mut incomplete = walked.missing_inputs || walked.problems.iter().any(|p| p.incomplete);
 
     let parsed: Vec<(FileIr, Option<String>)> = walked
         .files

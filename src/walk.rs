@@ -31,6 +31,9 @@ pub struct SourcePath {
 pub struct WalkProblem {
     pub path: String,
     pub message: String,
+    /// True when a file that should have been read was not (the scan is incomplete);
+    /// false for what was left out on purpose (a link loop, a link out of the root).
+    pub incomplete: bool,
 }
 
 #[derive(Debug, Default)]
@@ -78,16 +81,18 @@ pub fn walk(paths: &[PathBuf], excluded: &dyn Fn(&str) -> bool) -> WalkResult {
         root: root.clone(),
         ..WalkResult::default()
     };
+    let mut seen = std::collections::HashSet::new();
     for path in paths {
-        if !path.exists() {
+        if std::fs::symlink_metadata(path).is_err() {
             result.problems.push(WalkProblem {
                 path: path.to_string_lossy().into_owned(),
                 message: "no such file or folder".into(),
+                incomplete: true,
             });
             result.missing_inputs = true;
             continue;
         }
-        let walker = walkdir::WalkDir::new(path)
+        let mut entries = walkdir::WalkDir::new(path)
             .follow_links(true)
             .sort_by_file_name()
             .into_iter()
@@ -98,7 +103,7 @@ pub fn walk(paths: &[PathBuf], excluded: &dyn Fn(&str) -> bool) -> WalkResult {
                         .to_str()
                         .is_some_and(|n| SKIPPED_DIRS.contains(&n)))
             });
-        for entry in walker {
+        while let Some(entry) = entries.next() {
             let entry = match entry {
                 Ok(e) => e,
                 Err(err) => {
@@ -106,36 +111,64 @@ pub fn walk(paths: &[PathBuf], excluded: &dyn Fn(&str) -> bool) -> WalkResult {
                         .path()
                         .map(|p| relative_to(&root, p))
                         .unwrap_or_else(|| path.to_string_lossy().into_owned());
-                    let message = if err.loop_ancestor().is_some() {
-                        "a link loops back to a folder above it; not followed".to_string()
+                    let (message, incomplete) = if err.loop_ancestor().is_some() {
+                        (
+                            "a link loops back to a folder above it; not followed".to_string(),
+                            false,
+                        )
                     } else {
-                        err.io_error()
+                        let text = err
+                            .io_error()
                             .map(|e| e.to_string())
-                            .unwrap_or_else(|| err.to_string())
+                            .unwrap_or_else(|| err.to_string());
+                        (text, true)
                     };
                     result.problems.push(WalkProblem {
                         path: where_,
                         message,
+                        incomplete,
                     });
                     continue;
                 }
             };
-            if !entry.file_type().is_file() || !is_c_source(entry.path()) {
-                continue;
-            }
-            if entry.path_is_symlink() {
-                let inside = entry
+            let inside = || {
+                entry
                     .path()
                     .canonicalize()
                     .map(|p| p.starts_with(&canonical_root))
-                    .unwrap_or(false);
-                if !inside {
-                    result.problems.push(WalkProblem {
-                        path: relative_to(&root, entry.path()),
-                        message: "a link that leads outside the scan root; not followed".into(),
-                    });
-                    continue;
+                    .unwrap_or(false)
+            };
+            if entry.path_is_symlink() && entry.depth() > 0 && !inside() {
+                result.problems.push(WalkProblem {
+                    path: relative_to(&root, entry.path()),
+                    message: "a link that leads outside the scan root; not followed".into(),
+                    incomplete: false,
+                });
+                if entry.file_type().is_dir() {
+                    entries.skip_current_dir();
                 }
+                continue;
+            }
+            if entry.file_type().is_dir() || !is_c_source(entry.path()) {
+                continue;
+            }
+            if !entry.file_type().is_file() {
+                // A FIFO or device named like a source: opening it could block forever.
+                result.problems.push(WalkProblem {
+                    path: relative_to(&root, entry.path()),
+                    message: "not a regular file; not read".into(),
+                    incomplete: true,
+                });
+                continue;
+            }
+            // The same file reached twice (through a link, or two overlapping paths) is
+            // read once.
+            let identity = entry
+                .path()
+                .canonicalize()
+                .unwrap_or_else(|_| entry.path().to_path_buf());
+            if !seen.insert(identity) {
+                continue;
             }
             let relative = relative_to(&root, entry.path());
             if excluded(&relative) {

@@ -24,6 +24,11 @@ pub fn neutral(text: &str) -> String {
     out
 }
 
+/// Like `neutral`, for multi-line text: newlines stay.
+pub fn neutral_keep_newlines(text: &str) -> String {
+    text.split('\n').map(neutral).collect::<Vec<_>>().join("\n")
+}
+
 /// Writes `contents` to `path` through a temporary file in the same folder and a rename,
 /// so that a reader never sees a half-written file.
 pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {

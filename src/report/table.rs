@@ -52,9 +52,16 @@ pub fn seconds(v: f64) -> String {
 fn settling(f: &crate::metrics::Figures) -> String {
     let marks = [f.to_63, f.to_90, f.to_95, f.to_99];
     if marks.iter().all(|m| m.seconds.is_some()) {
-        let values: Vec<f64> = marks.iter().filter_map(|m| m.seconds.map(|s| s.0)).collect();
+        let values: Vec<f64> = marks
+            .iter()
+            .filter_map(|m| m.seconds.map(|s| s.0))
+            .collect();
         let largest = values.iter().cloned().fold(0.0, f64::max);
-        let (factor, unit) = if largest < 1.0 { (1e3, "ms") } else { (1.0, "s") };
+        let (factor, unit) = if largest < 1.0 {
+            (1e3, "ms")
+        } else {
+            (1.0, "s")
+        };
         let parts: Vec<String> = values.iter().map(|v| sig3(v * factor)).collect();
         return format!("{} {unit}", parts.join("/"));
     }
