@@ -269,3 +269,77 @@ mod tests {
         assert_eq!(rate_from_name("ALPHA", 0.1), None);
     }
 }
+
+/// Rates the spec declares, carried from entry functions down the call graph.
+pub mod propagate {
+    use crate::index::{FuncRef, Program};
+    use crate::spec::{RateScope, Spec};
+    use std::collections::{BTreeMap, VecDeque};
+
+    /// One rate that reaches a function: Hz (None for an event-driven entry) and the
+    /// entry it came from, in words.
+    #[derive(Debug, Clone, PartialEq)]
+    pub struct Reach {
+        pub hz: Option<f64>,
+        pub source: String,
+        /// Line of the spec entry.
+        pub spec_line: usize,
+    }
+
+    /// For every function reached by a spec rate, the distinct rates that reach it.
+    pub fn rates(program: &Program, spec: &Spec) -> BTreeMap<FuncRef, Vec<Reach>> {
+        let mut reached: BTreeMap<FuncRef, Vec<Reach>> = BTreeMap::new();
+        // The call graph, caller -> callees, by function.
+        let mut callees: BTreeMap<FuncRef, Vec<FuncRef>> = BTreeMap::new();
+        for call in program.calls() {
+            if let Some(callee) = program.function_by_name(&call.callee) {
+                let list = callees.entry(call.caller).or_default();
+                if !list.contains(&callee) {
+                    list.push(callee);
+                }
+            }
+        }
+        for rate in &spec.rates {
+            let starts: Vec<FuncRef> = match &rate.scope {
+                RateScope::Function(name) => program.function_by_name(name).into_iter().collect(),
+                RateScope::Path(glob) => {
+                    let Ok(matcher) = globset::Glob::new(glob).map(|g| g.compile_matcher()) else {
+                        continue;
+                    };
+                    program
+                        .functions()
+                        .filter(|f| matcher.is_match(program.path(program.function(*f).span.file)))
+                        .collect()
+                }
+            };
+            let what = match &rate.scope {
+                RateScope::Function(name) => format!("{name}()"),
+                RateScope::Path(glob) => format!("files `{glob}`"),
+            };
+            let source = match rate.rate {
+                Some(hz) => format!("spec: {what} runs at {} Hz", crate::report::table::sig3(hz.0)),
+                None => format!("spec: {what} runs per event"),
+            };
+            let reach = Reach {
+                hz: rate.rate.map(|h| h.0),
+                source,
+                spec_line: rate.line,
+            };
+            let mut queue: VecDeque<FuncRef> = starts.into_iter().collect();
+            let mut visited = std::collections::BTreeSet::new();
+            while let Some(f) = queue.pop_front() {
+                if !visited.insert(f) {
+                    continue;
+                }
+                let list = reached.entry(f).or_default();
+                if !list.iter().any(|r| r.hz == reach.hz) {
+                    list.push(reach.clone());
+                }
+                for &next in callees.get(&f).map(Vec::as_slice).unwrap_or(&[]) {
+                    queue.push_back(next);
+                }
+            }
+        }
+        reached
+    }
+}

@@ -14,6 +14,8 @@ pub mod quantity;
 pub mod recognise;
 pub mod report;
 pub mod scan;
+pub mod check;
+pub mod rules;
 pub mod spec;
 pub mod units;
 pub mod walk;

@@ -42,6 +42,27 @@ pub struct Scan {
     pub incomplete: bool,
 }
 
+impl Scan {
+    /// The stable id of each smoother: path, function and state; a repeat gets `#2`, `#3`.
+    pub fn ids(&self) -> Vec<String> {
+        let mut seen: std::collections::BTreeMap<String, u32> = std::collections::BTreeMap::new();
+        self.recognition
+            .smoothers
+            .iter()
+            .map(|s| {
+                let base = format!("{}::{}::{}", self.program.path(s.span.file), s.function, s.state);
+                let n = seen.entry(base.clone()).or_insert(0);
+                *n += 1;
+                if *n == 1 {
+                    base
+                } else {
+                    format!("{base}#{n}")
+                }
+            })
+            .collect()
+    }
+}
+
 fn excluded(patterns: &[String], relative: &str) -> bool {
     patterns.iter().any(|p| glob_match(p, relative))
 }

@@ -140,6 +140,8 @@ pub struct Smoother {
     pub dead_band: Option<sim::DeadBand>,
     pub chain: Vec<ChainStep>,
     pub rate: RateInfo,
+    /// When the spec sets the rate: the rate the code's own derivation gave, if any.
+    pub code_rate: Option<RateInfo>,
     pub variants: Vec<Variant>,
     /// The update as C text after temporaries and macros were put in.
     pub update: String,
@@ -1587,6 +1589,7 @@ fn build(
         dead_band,
         chain,
         rate,
+        code_rate: None,
         variants,
         update: format!("{} = {}", c.state, c.new_value),
         state_type,

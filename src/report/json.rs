@@ -175,24 +175,6 @@ fn settle_map(x: &Figures) -> BTreeMap<&'static str, SettleRecord> {
     m
 }
 
-/// The stable id of each smoother: path, function and state; a repeat gets `#2`, `#3`.
-pub fn ids(program: &Program, smoothers: &[Smoother]) -> Vec<String> {
-    let mut seen: BTreeMap<String, u32> = BTreeMap::new();
-    smoothers
-        .iter()
-        .map(|s| {
-            let base = format!("{}::{}::{}", program.path(s.span.file), s.function, s.state);
-            let n = seen.entry(base.clone()).or_insert(0);
-            *n += 1;
-            if *n == 1 {
-                base
-            } else {
-                format!("{base}#{n}")
-            }
-        })
-        .collect()
-}
-
 fn record<'a>(
     program: &'a Program,
     s: &'a Smoother,
@@ -291,7 +273,7 @@ fn record<'a>(
 pub fn render(scan: &Scan, root_label: &str) -> String {
     let program = &scan.program;
     let smoothers = &scan.recognition.smoothers;
-    let all_ids = ids(program, smoothers);
+    let all_ids = scan.ids();
     let records = smoothers
         .iter()
         .zip(&scan.figures)

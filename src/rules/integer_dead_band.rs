@@ -1,0 +1,56 @@
+//! `integer-dead-band`: an integer smoother that cannot reach a constant input, by how
+//! many counts on each side. Silent when the spec sets `max_dead_band` for the smoother
+//! (then `dead-band-over-requirement` judges it).
+
+use super::{Context, Finding, RuleInfo};
+use crate::spec::{Input, Severity};
+
+pub const RULE: RuleInfo = RuleInfo {
+    id: "integer-dead-band",
+    severity: Severity::Warning,
+    summary: "Integer truncation lets the state rest away from a constant input.",
+    doc: include_str!("../../rules/integer-dead-band.md"),
+    check,
+};
+
+pub(super) const FIX: &str = "keep the state scaled (`acc += u - (acc >> k)`, read `acc >> k`), \
+or round before truncating (add N/2 before `/ N`); either keeps the rest within one count";
+
+/// Counts, with engineering units when the spec gives what a count is worth.
+pub(super) fn counts(n: u64, input: &Input) -> String {
+    let base = format!("{n} count{}", if n == 1 { "" } else { "s" });
+    match (input.per_count, &input.unit) {
+        (Some(per), Some(unit)) => format!("{base} ({} {unit})", crate::report::table::sig3(n as f64 * per)),
+        (Some(per), None) => format!("{base} ({})", crate::report::table::sig3(n as f64 * per)),
+        _ => base,
+    }
+}
+
+fn check(ctx: &Context, out: &mut Vec<Finding>) {
+    for (i, s, _) in ctx.smoothers() {
+        if ctx.requirements[i].max_dead_band.is_some() {
+            continue;
+        }
+        let Some(band) = s.dead_band else { continue };
+        if band.rising == 0 && band.falling == 0 {
+            continue;
+        }
+        let how = match (band.rising > 0, band.falling > 0) {
+            (true, false) => " (an arithmetic shift rounds toward minus infinity)",
+            (true, true) if band.rising == band.falling => " (integer division truncates toward zero)",
+            _ => "",
+        };
+        let mut finding = Finding::at(
+            &RULE,
+            i,
+            s,
+            format!(
+                "rests up to {} below a rising input and {} above a falling one{how}",
+                counts(band.rising, &ctx.inputs[i]),
+                counts(band.falling, &ctx.inputs[i])
+            ),
+        );
+        finding.help = Some(FIX.into());
+        out.push(finding);
+    }
+}

@@ -1,0 +1,47 @@
+//! `spec-entry-unmatched`: a spec entry that matches no smoother. A filter that was
+//! deleted or renamed must not pass the gate silently.
+
+use super::{Context, Finding, RuleInfo};
+use crate::spec::Severity;
+
+pub const RULE: RuleInfo = RuleInfo {
+    id: "spec-entry-unmatched",
+    severity: Severity::Error,
+    summary: "A spec entry matches no smoother.",
+    doc: include_str!("../../rules/spec-entry-unmatched.md"),
+    check,
+};
+
+fn check(ctx: &Context, out: &mut Vec<Finding>) {
+    for (e, entry) in ctx.spec.smoothers.iter().enumerate() {
+        if ctx.matched.iter().any(|m| m.contains(&e)) {
+            continue;
+        }
+        let m = &entry.matcher;
+        let mut parts = Vec::new();
+        for (key, value) in [
+            ("id", &m.id),
+            ("path", &m.path),
+            ("function", &m.function),
+            ("state", &m.state),
+            ("tag", &m.tag),
+        ] {
+            if let Some(v) = value {
+                parts.push(format!("{key} `{v}`"));
+            }
+        }
+        out.push(Finding {
+            rule: RULE.id,
+            severity: RULE.severity,
+            span: None,
+            spec_line: Some(entry.line),
+            labels: Vec::new(),
+            message: format!("the spec entry for {} matches no smoother", parts.join(", ")),
+            help: Some(
+                "update the entry if the filter was renamed or moved, or remove it if the filter is gone (`tauscan list` shows the ids)".into(),
+            ),
+            smoother: None,
+            suppressed: None,
+        });
+    }
+}
