@@ -15,7 +15,14 @@ pub struct CheckResult {
     pub findings: Vec<Finding>,
 }
 
-fn matches(m: &Matcher, id: &str, path: &str, function: &str, state: &str, tags: &[String]) -> bool {
+fn matches(
+    m: &Matcher,
+    id: &str,
+    path: &str,
+    function: &str,
+    state: &str,
+    tags: &[String],
+) -> bool {
     let glob_ok = |pattern: &str| {
         globset::Glob::new(pattern)
             .map(|g| g.compile_matcher().is_match(path))
@@ -103,7 +110,14 @@ pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
         let mut req = Requirements::default();
         let mut input = Input::default();
         for (e, entry) in spec.smoothers.iter().enumerate() {
-            if matches(&entry.matcher, &ids[i], path, &s.function, &s.state, &tags[i]) {
+            if matches(
+                &entry.matcher,
+                &ids[i],
+                path,
+                &s.function,
+                &s.state,
+                &tags[i],
+            ) {
                 matched[i].push(e);
                 // The first entry that sets a field wins; later ones fill the rest.
                 req = req.or(&entry.requires);

@@ -198,7 +198,7 @@ pub fn rate_of(chain: &[ChainStep], alpha: &Coefficient, default_hz: Option<f64>
             continue;
         };
         if let Some(hz) = rate_from_name(name, value) {
-            rates.push((hz, step, format!("{name} = {value} ({})", step.text)));
+            rates.push((hz, step, format!("`{}`", step.text)));
         }
     }
     let is_definition = |s: &ChainStep| {
@@ -317,7 +317,10 @@ pub mod propagate {
                 RateScope::Path(glob) => format!("files `{glob}`"),
             };
             let source = match rate.rate {
-                Some(hz) => format!("spec: {what} runs at {} Hz", crate::report::table::sig3(hz.0)),
+                Some(hz) => format!(
+                    "spec: {what} runs at {} Hz",
+                    crate::report::table::sig3(hz.0)
+                ),
                 None => format!("spec: {what} runs per event"),
             };
             let reach = Reach {

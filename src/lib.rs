@@ -3,6 +3,7 @@
 //! The pipeline runs one way: `walk` → `parse` → `index` → `eval` → `recognise` →
 //! `context` → `metrics` → `report`. See ARCHITECTURE.md for the map and its invariants.
 
+pub mod check;
 pub mod context;
 pub mod eval;
 pub mod figures;
@@ -13,9 +14,8 @@ pub mod parse;
 pub mod quantity;
 pub mod recognise;
 pub mod report;
-pub mod scan;
-pub mod check;
 pub mod rules;
+pub mod scan;
 pub mod spec;
 pub mod units;
 pub mod walk;

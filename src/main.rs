@@ -21,7 +21,6 @@ use tauscan::scan::{self, ScanOptions};
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Status {
     Clean = 0,
-    #[allow(dead_code)] // Returned by `check`, which comes with the spec.
     Findings = 1,
     ToolError = 2,
 }
@@ -35,6 +34,23 @@ enum Status {
 struct Cli {
     #[command(subcommand)]
     command: Command,
+}
+
+#[derive(Clone, Copy, ValueEnum, PartialEq)]
+enum FailOn {
+    Error,
+    Warning,
+    Note,
+}
+
+impl FailOn {
+    fn severity(self) -> tauscan::spec::Severity {
+        match self {
+            FailOn::Error => tauscan::spec::Severity::Error,
+            FailOn::Warning => tauscan::spec::Severity::Warning,
+            FailOn::Note => tauscan::spec::Severity::Note,
+        }
+    }
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -53,9 +69,9 @@ struct ScanArgs {
     /// A rate to assume where the code gives none, e.g. "1kHz", "500 Hz", "2 ms".
     #[arg(long, value_name = "RATE")]
     rate: Option<String>,
-    /// Width of `int` on the target, in bits.
-    #[arg(long, value_name = "BITS", default_value_t = 32, value_parser = int_bits)]
-    int_bits: u8,
+    /// Width of `int` on the target, in bits (default: the spec's, else 32).
+    #[arg(long, value_name = "BITS", value_parser = int_bits)]
+    int_bits: Option<u8>,
     /// Paths (relative to the scan root) not to read; `*`, `**` and `?` work. Repeatable.
     #[arg(long, value_name = "GLOB")]
     exclude: Vec<String>,
@@ -73,6 +89,45 @@ enum Command {
         /// Write the output to this file (whole or not at all) instead of standard output.
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
+    },
+    /// Hold every smoother against the spec (tauscan.yaml) and report what disagrees.
+    Check {
+        #[command(flatten)]
+        scan: ScanArgs,
+        /// The spec file (default: tauscan.yaml in the scan root or the nearest folder above).
+        #[arg(long, value_name = "FILE")]
+        spec: Option<PathBuf>,
+        /// The lowest severity that fails the gate (exit status 1).
+        #[arg(long, value_enum, default_value_t = FailOn::Error)]
+        fail_on: FailOn,
+        /// Output format: compiler-style diagnostics, or the JSON inventory with findings.
+        #[arg(long, value_enum, default_value_t = Format::Table)]
+        format: Format,
+        /// Write the output to this file (whole or not at all) instead of standard output.
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+    },
+    /// Print a rule's documentation (`tauscan explain --list` lists the rules).
+    Explain {
+        /// The rule id, e.g. integer-dead-band.
+        rule: Option<String>,
+        /// List every rule with its default severity and summary.
+        #[arg(long)]
+        list: bool,
+    },
+    /// Write a starter spec that holds every smoother to its present figures.
+    Init {
+        #[command(flatten)]
+        scan: ScanArgs,
+        /// Where to write it (default: tauscan.yaml in the scan root).
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Tolerance around the present figures, in percent.
+        #[arg(long, default_value_t = 20.0)]
+        tolerance: f64,
+        /// Replace an existing file.
+        #[arg(long)]
+        force: bool,
     },
     /// Inspect what the parser and the lowering make of a file.
     #[command(hide = true)]
@@ -117,6 +172,11 @@ fn parse_defines(raw: &[String]) -> Result<BTreeMap<String, String>> {
 }
 
 fn scan_options(args: &ScanArgs) -> Result<ScanOptions> {
+    scan_options_with(args, &tauscan::spec::Spec::default())
+}
+
+/// The scan's options: the spec's, with the command line's on top.
+fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<ScanOptions> {
     let default_rate_hz = match &args.rate {
         Some(text) => Some(
             tauscan::quantity::parse_rate(text)
@@ -130,17 +190,22 @@ fn scan_options(args: &ScanArgs) -> Result<ScanOptions> {
     } else {
         args.paths.clone()
     };
+    let mut defines = spec.defines.clone();
+    defines.extend(parse_defines(&args.defines)?);
+    let mut exclude = spec.exclude.clone();
+    exclude.extend(args.exclude.iter().cloned());
     Ok(ScanOptions {
         paths,
         program: ProgramOptions {
             target: Target {
-                int_bits: args.int_bits,
-                has_fpu: true,
+                int_bits: args.int_bits.or(spec.int_bits).unwrap_or(32),
+                has_fpu: spec.fpu.unwrap_or(true),
             },
-            defines: parse_defines(&args.defines)?,
+            defines,
         },
         recognise: RecogniseOptions { default_rate_hz },
-        exclude: args.exclude.clone(),
+        exclude,
+        include: spec.include.clone(),
     })
 }
 
@@ -197,6 +262,20 @@ fn run(cli: Cli) -> Result<Status> {
             }
             Ok(Status::Clean)
         }
+        Command::Check {
+            scan: args,
+            spec,
+            fail_on,
+            format,
+            output,
+        } => check(&args, spec, fail_on, format, &output),
+        Command::Explain { rule, list } => explain(rule.as_deref(), list),
+        Command::Init {
+            scan: args,
+            output,
+            tolerance,
+            force,
+        } => init(&args, output, tolerance, force),
         Command::Debug { what } => {
             let (file, ir) = match &what {
                 DebugWhat::Syntax { file } => (file, false),
@@ -216,6 +295,156 @@ fn run(cli: Cli) -> Result<Status> {
             Ok(Status::Clean)
         }
     }
+}
+
+/// Reads the spec named or found; None when there is none (an empty spec then applies).
+fn load_spec(
+    named: Option<PathBuf>,
+    paths: &[PathBuf],
+) -> Result<Option<(PathBuf, String, tauscan::spec::Spec)>> {
+    let root = tauscan::walk::scan_root(if paths.is_empty() { &[] } else { paths });
+    let path = match named {
+        Some(p) => p,
+        None => match tauscan::spec::find(&root) {
+            Some(p) => p,
+            None => return Ok(None),
+        },
+    };
+    let text = std::fs::read_to_string(&path)
+        .with_context(|| format!("cannot read the spec {}", path.display()))?;
+    match tauscan::spec::from_str(&text) {
+        Ok(mut spec) => {
+            spec.path = Some(path.clone());
+            Ok(Some((path, text, spec)))
+        }
+        Err(e) => bail!("{}:{e}", path.display()),
+    }
+}
+
+fn check(
+    args: &ScanArgs,
+    spec_path: Option<PathBuf>,
+    fail_on: FailOn,
+    format: Format,
+    output: &Option<PathBuf>,
+) -> Result<Status> {
+    let loaded = load_spec(spec_path, &args.paths)?;
+    let spec = loaded
+        .as_ref()
+        .map(|(_, _, s)| s.clone())
+        .unwrap_or_default();
+    let options = scan_options_with(args, &spec)?;
+    let mut result = scan::run(&options);
+    print_notes(&result);
+    let checked = tauscan::check::run(&mut result, &spec);
+    let spec_name = loaded
+        .as_ref()
+        .map(|(p, _, _)| p.to_string_lossy().replace('\\', "/"));
+    let text = match format {
+        Format::Json => {
+            let root_label = result.root.to_string_lossy().replace('\\', "/");
+            report::json::render_with_findings(
+                &result,
+                &root_label,
+                &checked.findings,
+                spec_name.as_deref(),
+            )
+        }
+        Format::Table => {
+            let root = result.root.clone();
+            let paths = result.program.paths.clone();
+            let read = move |f: tauscan::ir::FileId| -> Option<Vec<u8>> {
+                let rel = paths.get(f.0 as usize)?;
+                std::fs::read(root.join(rel)).ok()
+            };
+            let sources = report::diagnostics::Sources {
+                read: &read,
+                spec: loaded
+                    .as_ref()
+                    .map(|(p, t, _)| (p.to_string_lossy().into_owned(), t.clone())),
+            };
+            use std::io::IsTerminal;
+            let color = output.is_none()
+                && std::io::stdout().is_terminal()
+                && std::env::var_os("NO_COLOR").is_none();
+            let mut text = report::diagnostics::render(&result, &checked, &sources, color);
+            if loaded.is_none() {
+                text.push_str("No spec found (tauscan.yaml): only the rules that need no requirements ran; `tauscan init` writes a starter spec.\n");
+            }
+            text
+        }
+    };
+    emit(&text, output)?;
+    if result.incomplete {
+        eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
+        return Ok(Status::ToolError);
+    }
+    let failing = checked
+        .findings
+        .iter()
+        .any(|f| f.suppressed.is_none() && f.severity >= fail_on.severity());
+    Ok(if failing {
+        Status::Findings
+    } else {
+        Status::Clean
+    })
+}
+
+fn explain(rule: Option<&str>, list: bool) -> Result<Status> {
+    use tauscan::rules::REGISTRY;
+    if list || rule.is_none() {
+        let mut text = String::new();
+        for r in REGISTRY {
+            text.push_str(&format!(
+                "{:<36} {:<8} {}\n",
+                r.id,
+                r.severity.name(),
+                r.summary
+            ));
+        }
+        emit(&text, &None)?;
+        return Ok(Status::Clean);
+    }
+    let id = rule.unwrap_or_default();
+    match tauscan::rules::find_rule(id) {
+        Some(r) => {
+            emit(r.doc, &None)?;
+            Ok(Status::Clean)
+        }
+        None => {
+            let near = REGISTRY
+                .iter()
+                .min_by_key(|r| strsim::damerau_levenshtein(id, r.id))
+                .map(|r| r.id)
+                .unwrap_or("");
+            bail!("no rule `{id}` (did you mean `{near}`? `tauscan explain --list` lists them)")
+        }
+    }
+}
+
+fn init(args: &ScanArgs, output: Option<PathBuf>, tolerance: f64, force: bool) -> Result<Status> {
+    if !(tolerance > 0.0 && tolerance < 100.0) {
+        bail!("--tolerance {tolerance}: want a percentage between 0 and 100");
+    }
+    let options = scan_options(args)?;
+    let result = scan::run(&options);
+    print_notes(&result);
+    let path = output.unwrap_or_else(|| result.root.join(tauscan::spec::FILE_NAME));
+    if path.exists() && !force {
+        bail!("{} exists; use --force to replace it", path.display());
+    }
+    let text = report::starter_spec::starter_spec(&result, tolerance / 100.0);
+    report::write_atomically(&path, text.as_bytes())
+        .with_context(|| format!("cannot write {}", path.display()))?;
+    eprintln!(
+        "tauscan: wrote {} with {} smoother(s); review it, add the rates of your entry functions, and tighten it",
+        path.display(),
+        result.recognition.smoothers.len()
+    );
+    if result.incomplete {
+        return Ok(Status::ToolError);
+    }
+    Ok(Status::Clean)
 }
 
 fn main() -> ExitCode {

@@ -18,8 +18,10 @@ pub struct ScanOptions {
     pub paths: Vec<PathBuf>,
     pub program: ProgramOptions,
     pub recognise: RecogniseOptions,
-    /// Relative paths (with '/') for which this returns true are not read.
+    /// Globs over relative paths (with '/') not to read.
     pub exclude: Vec<String>,
+    /// When not empty, only relative paths matching one of these globs are read.
+    pub include: Vec<String>,
 }
 
 /// A note about one file or the scan as a whole, for stderr and the JSON `notes`.
@@ -50,7 +52,12 @@ impl Scan {
             .smoothers
             .iter()
             .map(|s| {
-                let base = format!("{}::{}::{}", self.program.path(s.span.file), s.function, s.state);
+                let base = format!(
+                    "{}::{}::{}",
+                    self.program.path(s.span.file),
+                    s.function,
+                    s.state
+                );
                 let n = seen.entry(base.clone()).or_insert(0);
                 *n += 1;
                 if *n == 1 {
@@ -105,7 +112,16 @@ pub fn run(options: &ScanOptions) -> Scan {
 }
 
 fn run_here(options: &ScanOptions) -> Scan {
-    let walked: WalkResult = walk::walk(&options.paths, &|rel| excluded(&options.exclude, rel));
+    let include: Vec<globset::GlobMatcher> = options
+        .include
+        .iter()
+        .filter_map(|g| globset::Glob::new(g).ok().map(|g| g.compile_matcher()))
+        .collect();
+    let skip = |rel: &str| {
+        excluded(&options.exclude, rel)
+            || (!include.is_empty() && !include.iter().any(|m| m.is_match(rel)))
+    };
+    let walked: WalkResult = walk::walk(&options.paths, &skip);
     let mut notes: Vec<ScanNote> = walked
         .problems
         .iter()

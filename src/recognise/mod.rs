@@ -148,6 +148,9 @@ pub struct Smoother {
     pub state_type: Option<CType>,
     /// The input signals as C text.
     pub inputs: Vec<String>,
+    /// The update compiled to run with C semantics (state in slot 0, inputs after), when
+    /// every constant in it is known.
+    pub simulation: Option<sim::Update>,
     /// Index (in the result list) of the smoother whose state feeds this one.
     pub upstream: Option<usize>,
 }
@@ -1592,6 +1595,12 @@ fn build(
         code_rate: None,
         variants,
         update: format!("{} = {}", c.state, c.new_value),
+        // A moving average's update reads the ring too; running it on one input value
+        // would say nothing true, so it has no simulation.
+        simulation: state_type
+            .as_ref()
+            .filter(|_| form != Form::MovingAverage)
+            .and_then(|ty| compile_update(program, c, aff, ty, scale.unwrap_or(1.0))),
         state_type,
         inputs,
         upstream: None,

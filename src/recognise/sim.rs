@@ -13,7 +13,7 @@
 use crate::eval::num::{self, ArithError, Num, Target};
 use crate::ir::{BinaryOp, CType, UnaryOp};
 
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Node {
     Const(Num),
     Slot(usize),
@@ -80,7 +80,7 @@ impl Node {
 const MAX_SLOTS: usize = 8;
 
 /// An update ready to run: slot 0 is the state, the others are inputs.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Update {
     pub new_value: Node,
     pub state_type: CType,
@@ -97,7 +97,47 @@ pub struct DeadBand {
     pub falling: u64,
 }
 
+/// One run of an update on given values, with what C arithmetic did on the way.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Run {
+    /// The new value, converted to the state's type as the assignment does.
+    pub value: Num,
+    /// A signed intermediate went out of its type's range (undefined in C; wrapped here).
+    pub signed_overflow: bool,
+    /// An unsigned intermediate wrapped modulo 2^N.
+    pub unsigned_wrap: bool,
+    /// The assignment to the state changed the value (it did not fit the state's type).
+    pub narrowed: bool,
+}
+
 impl Update {
+    /// Runs the update once with the state at `state` and every input at `input` (each
+    /// converted to its declared type first). None when a value cannot be represented or
+    /// the arithmetic has no result (division by zero).
+    pub fn run(&self, state: f64, input: f64) -> Option<Run> {
+        let convert = |v: f64, ty: &CType| -> Option<Num> {
+            if !v.is_finite() {
+                return None;
+            }
+            Some(Num::double(v).convert(ty, self.target))
+        };
+        let mut slots = Vec::with_capacity(1 + self.input_types.len());
+        slots.push(convert(state, &self.state_type)?);
+        for ty in &self.input_types {
+            slots.push(convert(input, ty)?);
+        }
+        let raw = self.new_value.eval(&slots, self.target).ok()?;
+        let (signed_overflow, unsigned_wrap) = self.new_value.hazards(&slots, self.target);
+        let value = raw.convert(&self.state_type, self.target);
+        let narrowed = value.as_f64() != raw.as_f64();
+        Some(Run {
+            value,
+            signed_overflow,
+            unsigned_wrap,
+            narrowed,
+        })
+    }
+
     fn step(&self, state: i128, input: i128) -> Option<i128> {
         // Slots live on the stack: this runs hundreds of thousands of times per smoother.
         let mut slots = [Num::Int {

@@ -33,7 +33,14 @@
 //!     "cascade": { "stages": [id, …], "cutoff_hz": …, "cutoff_per_sample": …,
 //!                  "lag_samples": …, "lag_s": …, "settle": {…}, "noise_ratio": … } | null
 //!   } ],
-//!   "findings": [],
+//!   "findings": [ {                               // `tauscan check` only; [] for list
+//!     "rule": "cutoff-outside-requirement", "severity": "error" | "warning" | "note",
+//!     "file": "vent.c", "line": 42, "column": 5,      // the update or call; for a spec
+//!                                                     // entry, the spec file and line
+//!     "message": "…", "help": "…" | null,
+//!     "smoother": id | null, "suppressed": "reason" | null,
+//!     "labels": [ { "file": "vent.c", "line": 3, "message": "coefficient from …" } ]
+//!   } ],
 //!   "notes": [ { "file": "x.c", "line": 3 | null, "message": "…" } ]
 //! }
 //! ```
@@ -55,7 +62,7 @@ struct Document<'a> {
     tool: Tool,
     root: String,
     smoothers: Vec<Record<'a>>,
-    findings: Vec<serde_json::Value>,
+    findings: Vec<FindingRecord>,
     notes: Vec<NoteRecord>,
 }
 
@@ -145,6 +152,30 @@ struct Record<'a> {
     update: &'a str,
     inputs: &'a [String],
     cascade: Option<CascadeRecord>,
+}
+
+#[derive(Serialize)]
+struct LabelRecord {
+    file: String,
+    line: u32,
+    message: String,
+}
+
+#[derive(Serialize)]
+struct FindingRecord {
+    rule: &'static str,
+    severity: &'static str,
+    /// The update or call a reader must look at; for a finding about the spec, the spec
+    /// file and the entry's line.
+    file: Option<String>,
+    line: Option<u32>,
+    column: Option<u32>,
+    message: String,
+    help: Option<String>,
+    smoother: Option<String>,
+    /// The reason of an inline suppression; the finding then does not fail the gate.
+    suppressed: Option<String>,
+    labels: Vec<LabelRecord>,
 }
 
 #[derive(Serialize)]
@@ -269,8 +300,19 @@ fn record<'a>(
     }
 }
 
-/// The whole scan as JSON text.
+/// The whole scan as JSON text (the inventory of `tauscan list`).
 pub fn render(scan: &Scan, root_label: &str) -> String {
+    render_with_findings(scan, root_label, &[], None)
+}
+
+/// The scan and the findings of `tauscan check`; `spec_file` names the spec for findings
+/// about its entries.
+pub fn render_with_findings(
+    scan: &Scan,
+    root_label: &str,
+    findings: &[crate::rules::Finding],
+    spec_file: Option<&str>,
+) -> String {
     let program = &scan.program;
     let smoothers = &scan.recognition.smoothers;
     let all_ids = scan.ids();
@@ -288,7 +330,40 @@ pub fn render(scan: &Scan, root_label: &str) -> String {
         },
         root: root_label.to_string(),
         smoothers: records,
-        findings: Vec::new(),
+        findings: findings
+            .iter()
+            .map(|f| {
+                let (file, line, column) = match (f.span, f.spec_line) {
+                    (Some(span), _) => (
+                        Some(program.path(span.file).to_string()),
+                        Some(span.line),
+                        Some(span.column),
+                    ),
+                    (None, Some(line)) => (spec_file.map(str::to_string), Some(line as u32), None),
+                    (None, None) => (None, None, None),
+                };
+                FindingRecord {
+                    rule: f.rule,
+                    severity: f.severity.name(),
+                    file,
+                    line,
+                    column,
+                    message: f.message.clone(),
+                    help: f.help.clone(),
+                    smoother: f.smoother.and_then(|i| all_ids.get(i).cloned()),
+                    suppressed: f.suppressed.clone(),
+                    labels: f
+                        .labels
+                        .iter()
+                        .map(|l| LabelRecord {
+                            file: program.path(l.file).to_string(),
+                            line: l.line,
+                            message: l.message.clone(),
+                        })
+                        .collect(),
+                }
+            })
+            .collect(),
         notes: scan
             .notes
             .iter()

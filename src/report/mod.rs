@@ -5,7 +5,9 @@
 //! escape sequences in source text cannot drive the reader's terminal. Files are written
 //! whole or not at all (`write_atomically`).
 
+pub mod diagnostics;
 pub mod json;
+pub mod starter_spec;
 pub mod table;
 
 use std::io::Write;

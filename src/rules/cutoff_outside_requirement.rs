@@ -17,7 +17,9 @@ pub const RULE: RuleInfo = RuleInfo {
 /// comes from.
 pub(super) fn coefficient_and_rate_labels(s: &crate::recognise::Smoother) -> Vec<Label> {
     let mut labels = Vec::new();
-    if let Some(step) = s.chain.last() {
+    // The outermost step is the one written for this smoother (its init call, its
+    // macro); the deeper ones are shared by every instance.
+    if let Some(step) = s.chain.first() {
         labels.push(Label {
             file: step.file,
             line: step.line,
@@ -82,8 +84,14 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
             (None, Some(h)) => h * 0.8,
             (None, None) => continue,
         };
-        finding.help = help::alpha_for_cutoff(target, fs)
-            .map(|a| format!("for {} at {}, use {}", hertz(target), hertz(fs), help::suggest(s, a, Some(fs))));
+        finding.help = help::alpha_for_cutoff(target, fs).map(|a| {
+            format!(
+                "for {} at {}, use {}",
+                hertz(target),
+                hertz(fs),
+                help::suggest(s, a, Some(fs))
+            )
+        });
         finding.labels = coefficient_and_rate_labels(s);
         out.push(finding);
     }

@@ -45,7 +45,10 @@ fn cutoff_text(alpha: f64, rate: Option<f64>) -> String {
             "cutoff {}",
             crate::report::table::hertz(w.to_hertz(Hertz(fs)).0)
         ),
-        (Some(w), None) => format!("cutoff {} fs", crate::report::table::sig3(w.0 / std::f64::consts::TAU)),
+        (Some(w), None) => format!(
+            "cutoff {} fs",
+            crate::report::table::sig3(w.0 / std::f64::consts::TAU)
+        ),
         (None, _) => "no cutoff below Nyquist".into(),
     }
 }
@@ -65,7 +68,11 @@ pub fn suggest(s: &Smoother, alpha: f64, rate: Option<f64>) -> String {
     }
     if integer && s.arithmetic == Arithmetic::Integer {
         let n = (1.0 / alpha).round().max(1.0);
-        return format!("/ {n} (alpha = {}, {})", sig(1.0 / n), cutoff_text(1.0 / n, rate));
+        return format!(
+            "/ {n} (alpha = {}, {})",
+            sig(1.0 / n),
+            cutoff_text(1.0 / n, rate)
+        );
     }
     format!("alpha = {} ({})", sig(alpha), cutoff_text(alpha, rate))
 }

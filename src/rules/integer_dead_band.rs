@@ -20,7 +20,10 @@ or round before truncating (add N/2 before `/ N`); either keeps the rest within 
 pub(super) fn counts(n: u64, input: &Input) -> String {
     let base = format!("{n} count{}", if n == 1 { "" } else { "s" });
     match (input.per_count, &input.unit) {
-        (Some(per), Some(unit)) => format!("{base} ({} {unit})", crate::report::table::sig3(n as f64 * per)),
+        (Some(per), Some(unit)) => format!(
+            "{base} ({} {unit})",
+            crate::report::table::sig3(n as f64 * per)
+        ),
         (Some(per), None) => format!("{base} ({})", crate::report::table::sig3(n as f64 * per)),
         _ => base,
     }
@@ -37,7 +40,9 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
         }
         let how = match (band.rising > 0, band.falling > 0) {
             (true, false) => " (an arithmetic shift rounds toward minus infinity)",
-            (true, true) if band.rising == band.falling => " (integer division truncates toward zero)",
+            (true, true) if band.rising == band.falling => {
+                " (integer division truncates toward zero)"
+            }
             _ => "",
         };
         let mut finding = Finding::at(

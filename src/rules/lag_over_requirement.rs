@@ -36,8 +36,13 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
                 seconds(max.0)
             ),
         );
-        finding.help = help::alpha_for_lag(max.0 * fs * 0.95)
-            .map(|a| format!("for a lag under {}, use {}", seconds(max.0), help::suggest(s, a, Some(fs))));
+        finding.help = help::alpha_for_lag(max.0 * fs * 0.95).map(|a| {
+            format!(
+                "for a lag under {}, use {}",
+                seconds(max.0),
+                help::suggest(s, a, Some(fs))
+            )
+        });
         finding.labels = super::cutoff_outside_requirement::coefficient_and_rate_labels(s);
         out.push(finding);
     }

@@ -112,7 +112,10 @@ impl Context<'_> {
     /// Whether any requirement is in Hz or seconds (which needs a rate).
     pub fn has_timed_requirements(&self, i: usize) -> bool {
         let r = &self.requirements[i];
-        r.cutoff_min.is_some() || r.cutoff_max.is_some() || r.max_lag.is_some() || r.settle.is_some()
+        r.cutoff_min.is_some()
+            || r.cutoff_max.is_some()
+            || r.max_lag.is_some()
+            || r.settle.is_some()
     }
 }
 
@@ -178,7 +181,10 @@ pub struct Suppression {
 pub fn parse_suppression(tag: &str) -> Option<Suppression> {
     let rest = tag.trim().strip_prefix("allow")?.trim_start();
     let (rule, reason) = match rest.split_once("--") {
-        Some((r, why)) => (r.trim(), Some(why.trim().to_string()).filter(|w| !w.is_empty())),
+        Some((r, why)) => (
+            r.trim(),
+            Some(why.trim().to_string()).filter(|w| !w.is_empty()),
+        ),
         None => (rest.trim(), None),
     };
     let rule = rule.split_whitespace().next()?.to_string();
@@ -202,7 +208,9 @@ fn apply_suppressions(ctx: &Context, findings: &mut Vec<Finding>) {
     for f in findings.iter_mut() {
         let Some(span) = f.span else { continue };
         for tag in tags_near(ctx.scan, span) {
-            let Some(sup) = parse_suppression(tag) else { continue };
+            let Some(sup) = parse_suppression(tag) else {
+                continue;
+            };
             if sup.rule != f.rule {
                 continue;
             }
@@ -235,7 +243,11 @@ mod tests {
                 "{}",
                 rule.id
             );
-            assert!(rule.doc.starts_with(&format!("# {}", rule.id)), "{} doc title", rule.id);
+            assert!(
+                rule.doc.starts_with(&format!("# {}", rule.id)),
+                "{} doc title",
+                rule.id
+            );
             for h in HEADINGS {
                 assert!(rule.doc.contains(h), "{} lacks {h}", rule.id);
             }

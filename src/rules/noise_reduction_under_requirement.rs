@@ -40,8 +40,13 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
                 sig3(max_ratio)
             ),
         );
-        finding.help = help::alpha_for_noise_ratio(max_ratio * 0.98)
-            .map(|a| format!("for {} dB, use {}", sig3(db(max_ratio)), help::suggest(s, a, s.rate.hz)));
+        finding.help = help::alpha_for_noise_ratio(max_ratio * 0.98).map(|a| {
+            format!(
+                "for {} dB, use {}",
+                sig3(db(max_ratio)),
+                help::suggest(s, a, s.rate.hz)
+            )
+        });
         finding.labels = super::cutoff_outside_requirement::coefficient_and_rate_labels(s);
         out.push(finding);
     }

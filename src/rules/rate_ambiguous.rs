@@ -23,7 +23,10 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
             &RULE,
             i,
             s,
-            format!("reached from entries of different rates: {}", list.join("; ")),
+            format!(
+                "reached from entries of different rates: {}",
+                list.join("; ")
+            ),
         );
         finding.help = Some(
             "give each rate its own filter state, or compute the coefficient from a measured time step".into(),

@@ -15,7 +15,8 @@ pub const RULE: RuleInfo = RuleInfo {
 
 fn check(ctx: &Context, out: &mut Vec<Finding>) {
     for (i, s, _) in ctx.smoothers() {
-        if !ctx.has_timed_requirements(i) || s.rate.hz.is_some() || ctx.rates[i].from_spec.len() > 1 {
+        if !ctx.has_timed_requirements(i) || s.rate.hz.is_some() || ctx.rates[i].from_spec.len() > 1
+        {
             continue;
         }
         let message = match s.rate.kind {

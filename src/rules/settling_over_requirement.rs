@@ -43,7 +43,11 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
             ),
         );
         finding.help = help::alpha_for_settle(q, within.0 * fs).map(|a| {
-            format!("to reach {pct} % within {}, use {}", seconds(within.0), help::suggest(s, a, Some(fs)))
+            format!(
+                "to reach {pct} % within {}, use {}",
+                seconds(within.0),
+                help::suggest(s, a, Some(fs))
+            )
         });
         finding.labels = super::cutoff_outside_requirement::coefficient_and_rate_labels(s);
         out.push(finding);
