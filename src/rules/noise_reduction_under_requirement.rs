@@ -40,13 +40,23 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
                 sig3(max_ratio)
             ),
         );
-        finding.help = help::alpha_for_noise_ratio(max_ratio * 0.98).map(|a| {
-            format!(
-                "for {} dB, use {}",
+        finding.help = if s.form == crate::recognise::Form::MovingAverage {
+            // 1/sqrt(N) <= r needs N >= 1/r^2.
+            let n = (1.0 / (max_ratio * max_ratio) - 1e-9).ceil();
+            Some(format!(
+                "for {} dB, use a window of N = {n} ({} dB)",
                 sig3(db(max_ratio)),
-                help::suggest(s, a, s.rate.hz)
-            )
-        });
+                sig3(db(1.0 / n.sqrt()))
+            ))
+        } else {
+            help::alpha_for_noise_ratio(max_ratio * 0.98).map(|a| {
+                format!(
+                    "for {} dB, use {}",
+                    sig3(db(max_ratio)),
+                    help::suggest(s, a, s.rate.hz)
+                )
+            })
+        };
         finding.labels = super::cutoff_outside_requirement::coefficient_and_rate_labels(s);
         out.push(finding);
     }
