@@ -56,6 +56,28 @@ fn tags_of(scan: &Scan, i: usize) -> Vec<String> {
     tags
 }
 
+/// The rate a spec `constant` entry gives a smoother whose derivation uses that constant.
+fn constant_rate(spec: &Spec, s: &crate::recognise::Smoother) -> Option<(f64, String)> {
+    for rate in &spec.rates {
+        let crate::spec::RateScope::Constant { name, unit } = &rate.scope else {
+            continue;
+        };
+        let Some(value) = s
+            .chain
+            .iter()
+            .find(|c| c.name.as_deref() == Some(name.as_str()))
+            .and_then(|c| c.value)
+        else {
+            continue;
+        };
+        let Ok(hz) = crate::quantity::parse_rate(&format!("{value} {unit}")) else {
+            continue;
+        };
+        return Some((hz.0, format!("spec: {name} = {value} {unit}")));
+    }
+    None
+}
+
 /// Applies the spec's rates to the smoothers and computes their figures again.
 fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
     let reached = propagate::rates(&scan.program, spec);
@@ -63,7 +85,22 @@ fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
     for s in &mut scan.recognition.smoothers {
         let from_spec = reached.get(&s.function_ref).cloned().unwrap_or_default();
         match from_spec.as_slice() {
-            [] => {}
+            [] => {
+                // A constant the spec declares as a rate, found in the derivation.
+                if let Some((hz, source)) = constant_rate(spec, s) {
+                    let code = std::mem::replace(
+                        &mut s.rate,
+                        RateInfo {
+                            hz: Some(hz),
+                            kind: RateKind::Spec,
+                            source: Some(source),
+                            span: None,
+                            conflicts: Vec::new(),
+                        },
+                    );
+                    s.code_rate = Some(code);
+                }
+            }
             [one] => {
                 let code = std::mem::replace(
                     &mut s.rate,

@@ -301,6 +301,8 @@ pub mod propagate {
         }
         for rate in &spec.rates {
             let starts: Vec<FuncRef> = match &rate.scope {
+                // Constants are applied per smoother (by its derivation), not by function.
+                RateScope::Constant { .. } => continue,
                 RateScope::Function(name) => program.function_by_name(name).into_iter().collect(),
                 RateScope::Path(glob) => {
                     let Ok(matcher) = globset::Glob::new(glob).map(|g| g.compile_matcher()) else {
@@ -315,6 +317,7 @@ pub mod propagate {
             let what = match &rate.scope {
                 RateScope::Function(name) => format!("{name}()"),
                 RateScope::Path(glob) => format!("files `{glob}`"),
+                RateScope::Constant { name, .. } => name.clone(),
             };
             let source = match rate.rate {
                 Some(hz) => format!(

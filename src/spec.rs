@@ -14,6 +14,7 @@
 //!   - { function: ui_task, period: "10 ms" }
 //!   - { path: "drivers/adc/**", rate: "2 kHz" }
 //!   - { function: on_packet, event: true }           # runs per event: no rate in Hz
+//!   - { constant: LOOP_PERIOD_US, unit: us }         # a constant of the code is the rate
 //! defaults:
 //!   requires: { max_dead_band: "4 counts" }
 //! smoothers:
@@ -158,6 +159,9 @@ pub enum RateScope {
     Function(String),
     /// Every function in files matching a glob.
     Path(String),
+    /// A constant of the code that states the rate: every smoother whose coefficient is
+    /// derived from it runs at the rate it gives (its value in `unit`).
+    Constant { name: String, unit: String },
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -226,6 +230,8 @@ struct RawTarget {
 struct RawRate {
     function: Option<String>,
     path: Option<String>,
+    constant: Option<String>,
+    unit: Option<String>,
     rate: Option<String>,
     period: Option<String>,
     #[serde(default)]
@@ -519,6 +525,19 @@ fn item_line(text: &str, section: &str, index: usize) -> usize {
     start
 }
 
+/// A `constant` rate entry takes its rate from the code: it gives no `rate`, `period` or
+/// `event` of its own.
+fn spec_constant_rate_check(r: &RawRate, line: usize) -> Result<(), SpecError> {
+    if r.rate.is_some() || r.period.is_some() || r.event {
+        return Err(SpecError {
+            line: Some(line),
+            column: None,
+            message: "rates: a `constant` entry takes its rate from the constant's value; give it a `unit`, not a `rate` or `period`".into(),
+        });
+    }
+    Ok(())
+}
+
 /// Reads and validates a spec from its text.
 pub fn from_str(text: &str) -> Result<Spec, SpecError> {
     let raw: RawSpec = if text.trim().is_empty() {
@@ -592,17 +611,40 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
     spec.fpu = raw.target.fpu;
     for (i, r) in raw.rates.iter().enumerate() {
         let line = item_line(text, "rates", i);
-        let scope = match (&r.function, &r.path) {
-            (Some(f), None) => RateScope::Function(f.clone()),
-            (None, Some(p)) => RateScope::Path(reader.glob(p, "rates.path", line)?),
+        let scope = match (&r.function, &r.path, &r.constant) {
+            (Some(f), None, None) => RateScope::Function(f.clone()),
+            (None, Some(p), None) => RateScope::Path(reader.glob(p, "rates.path", line)?),
+            (None, None, Some(c)) => {
+                let unit = r.unit.clone().unwrap_or_else(|| "Hz".into());
+                if quantity::parse_rate(&format!("1 {unit}")).is_err() {
+                    return Err(reader.error_at(
+                        &unit,
+                        line,
+                        format!("rates.unit: `{unit}` is not Hz, kHz, s, ms or us"),
+                    ));
+                }
+                spec_constant_rate_check(r, line)?;
+                RateScope::Constant {
+                    name: c.clone(),
+                    unit,
+                }
+            }
             _ => {
                 return Err(SpecError {
                     line: Some(line),
                     column: None,
-                    message: "rates: each entry names one `function` or one `path`".into(),
+                    message: "rates: each entry names one `function`, `path` or `constant`".into(),
                 })
             }
         };
+        if let RateScope::Constant { .. } = scope {
+            spec.rates.push(RateSpec {
+                scope,
+                rate: None,
+                line,
+            });
+            continue;
+        }
         let rate = match (&r.rate, &r.period, r.event) {
             (Some(text), None, false) => {
                 Some(reader.quantity(text, "rate", line, quantity::parse_rate)?)
@@ -771,6 +813,20 @@ rules:
         assert!(e.message.contains("loud"), "{e}");
         let e = from_str("rates:\n  - { function: isr }\n").unwrap_err();
         assert_eq!(e.line, Some(2));
+    }
+
+    #[test]
+    fn a_constant_can_be_declared_the_rate() {
+        let spec = from_str("rates:\n  - { constant: LOOP_PERIOD_US, unit: us }\n").unwrap();
+        assert_eq!(
+            spec.rates[0].scope,
+            RateScope::Constant {
+                name: "LOOP_PERIOD_US".into(),
+                unit: "us".into()
+            }
+        );
+        assert!(from_str("rates:\n  - { constant: X, unit: furlongs }\n").is_err());
+        assert!(from_str("rates:\n  - { constant: X, rate: \"1 kHz\" }\n").is_err());
     }
 
     #[test]
