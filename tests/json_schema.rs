@@ -54,6 +54,36 @@ fn every_fixture_tree_validates_against_the_documented_schema() {
 }
 
 #[test]
+fn check_output_with_findings_validates_too() {
+    let validator = schema();
+    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
+        .args(["check", "--format", "json", "fixtures/demo-greenhouse"])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("tauscan runs");
+    let doc: serde_json::Value = serde_json::from_slice(&out.stdout).expect("stdout is JSON");
+    assert!(!doc["findings"].as_array().unwrap().is_empty());
+    let errors: Vec<String> = validator
+        .iter_errors(&doc)
+        .map(|e| format!("{} at {}", e, e.instance_path()))
+        .take(10)
+        .collect();
+    assert!(errors.is_empty(), "{errors:#?}");
+    // Every finding about a smoother names one that is in the inventory.
+    let ids: Vec<&str> = doc["smoothers"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["id"].as_str().unwrap())
+        .collect();
+    for f in doc["findings"].as_array().unwrap() {
+        if let Some(id) = f["smoother"].as_str() {
+            assert!(ids.contains(&id), "{id}");
+        }
+    }
+}
+
+#[test]
 fn schema_rejects_what_it_should() {
     // The schema itself must be able to fail: a record missing `alpha` and a wrong form.
     let validator = schema();

@@ -97,3 +97,36 @@ fn a_tag_in_the_code_picks_the_spec_entry() {
     let (_, doc) = check(dir.path());
     assert_eq!(doc["findings"][0]["rule"], "spec-entry-unmatched");
 }
+
+#[test]
+fn the_spec_turns_rules_off_and_changes_their_severity() {
+    let dir = tempfile::tempdir().unwrap();
+    write(
+        dir.path(),
+        "coop.c",
+        "static int door_mm;\nvoid coop_door_sample(int raw)\n{\n    door_mm += (raw - door_mm) >> 3;\n}\n",
+    );
+    let run = |spec: &str| {
+        write(dir.path(), "tauscan.yaml", spec);
+        let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json"])
+            .arg(dir.path())
+            .output()
+            .unwrap();
+        let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        (
+            out.status.code().unwrap(),
+            doc["findings"].as_array().unwrap().len(),
+            doc,
+        )
+    };
+    // Default: a warning, which does not fail the default gate (--fail-on error).
+    let (status, n, doc) = run("");
+    assert_eq!((status, n), (0, 1));
+    assert_eq!(doc["findings"][0]["severity"], "warning");
+    let (status, _, doc) = run("rules: { integer-dead-band: error }\n");
+    assert_eq!(status, 1);
+    assert_eq!(doc["findings"][0]["severity"], "error");
+    let (status, n, _) = run("rules: { integer-dead-band: off }\n");
+    assert_eq!((status, n), (0, 0));
+}
