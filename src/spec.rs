@@ -830,6 +830,20 @@ rules:
     }
 
     #[test]
+    fn the_commented_example_uses_every_key_and_reads() {
+        let text = include_str!("../fixtures/spec-example/tauscan.yaml");
+        let spec = from_str(text).unwrap();
+        assert_eq!(spec.rates.len(), 5);
+        assert_eq!(spec.smoothers.len(), 3);
+        for key in KNOWN_KEYS {
+            assert!(
+                text.contains(&format!("{key}:")),
+                "the example lacks `{key}`"
+            );
+        }
+    }
+
+    #[test]
     fn empty_spec_is_valid() {
         assert_eq!(from_str("").unwrap(), Spec::default());
         assert_eq!(from_str("# nothing yet\n").unwrap(), Spec::default());

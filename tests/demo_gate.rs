@@ -138,3 +138,49 @@ fn a_broken_spec_stops_the_gate_with_its_place() {
     assert!(err.contains("tauscan.yaml:16:"), "{err}");
     assert!(err.contains("did you mean `max_dead_band`"), "{err}");
 }
+
+#[test]
+fn a_starter_spec_from_init_passes_the_code_it_was_written_from() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = dir.path().join("demo");
+    copy_tree(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures/demo-greenhouse"),
+        &demo,
+    );
+    std::fs::remove_file(demo.join("tauscan.yaml")).unwrap();
+    let init = Command::new(env!("CARGO_BIN_EXE_tauscan"))
+        .arg("init")
+        .arg(&demo)
+        .output()
+        .unwrap();
+    assert_eq!(
+        init.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&init.stderr)
+    );
+    let spec = std::fs::read_to_string(demo.join("tauscan.yaml")).unwrap();
+    assert!(spec.contains("max_dead_band: \"15 counts\""), "{spec}");
+    let (status, doc, text) = check(&demo);
+    assert_eq!(rules_of(&doc), Vec::<String>::new(), "{text}");
+    assert_eq!(status, 0);
+    // A second init does not overwrite without --force.
+    let again = Command::new(env!("CARGO_BIN_EXE_tauscan"))
+        .arg("init")
+        .arg(&demo)
+        .output()
+        .unwrap();
+    assert_eq!(again.status.code(), Some(2));
+    // Tightening one requirement makes the gate fail: the spec really holds the code.
+    edit(
+        &demo.join("tauscan.yaml"),
+        "max_dead_band: \"15 counts\"",
+        "max_dead_band: \"14 counts\"",
+    );
+    let (status, doc, _) = check(&demo);
+    assert_eq!(status, 1);
+    assert_eq!(
+        rules_of(&doc),
+        vec!["dead-band-over-requirement vent_motor.c:14"]
+    );
+}
