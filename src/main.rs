@@ -57,6 +57,8 @@ impl FailOn {
 enum Format {
     Table,
     Json,
+    /// SARIF 2.1.0 (`check` only).
+    Sarif,
 }
 
 #[derive(clap::Args)]
@@ -254,6 +256,7 @@ fn run(cli: Cli) -> Result<Status> {
             let text = match format {
                 Format::Table => report::table::render(&result),
                 Format::Json => report::json::render(&result, &root_label),
+                Format::Sarif => bail!("--format sarif is for `tauscan check`, which has findings"),
             };
             emit(&text, &output)?;
             if result.incomplete {
@@ -341,6 +344,16 @@ fn check(
         .as_ref()
         .map(|(p, _, _)| p.to_string_lossy().replace('\\', "/"));
     let text = match format {
+        Format::Sarif => {
+            let relative_spec = loaded.as_ref().and_then(|(p, _, _)| {
+                let root = result.root.canonicalize().ok()?;
+                let spec = p.canonicalize().ok()?;
+                spec.strip_prefix(&root)
+                    .ok()
+                    .map(|r| r.to_string_lossy().replace('\\', "/"))
+            });
+            report::sarif::render(&result, &checked, &spec, relative_spec.as_deref())
+        }
         Format::Json => {
             let root_label = result.root.to_string_lossy().replace('\\', "/");
             report::json::render_with_findings(
