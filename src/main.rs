@@ -59,6 +59,8 @@ enum Format {
     Json,
     /// SARIF 2.1.0 (`check` only).
     Sarif,
+    /// A summary for a pull-request comment (`check` only).
+    Markdown,
 }
 
 #[derive(clap::Args)]
@@ -256,7 +258,9 @@ fn run(cli: Cli) -> Result<Status> {
             let text = match format {
                 Format::Table => report::table::render(&result),
                 Format::Json => report::json::render(&result, &root_label),
-                Format::Sarif => bail!("--format sarif is for `tauscan check`, which has findings"),
+                Format::Sarif | Format::Markdown => {
+                    bail!("--format sarif and markdown are for `tauscan check`, which has findings")
+                }
             };
             emit(&text, &output)?;
             if result.incomplete {
@@ -344,6 +348,7 @@ fn check(
         .as_ref()
         .map(|(p, _, _)| p.to_string_lossy().replace('\\', "/"));
     let text = match format {
+        Format::Markdown => report::markdown::render(&result, &checked),
         Format::Sarif => {
             let relative_spec = loaded.as_ref().and_then(|(p, _, _)| {
                 let root = result.root.canonicalize().ok()?;

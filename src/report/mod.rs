@@ -7,6 +7,7 @@
 
 pub mod diagnostics;
 pub mod json;
+pub mod markdown;
 pub mod sarif;
 pub mod starter_spec;
 pub mod table;
