@@ -110,6 +110,20 @@ enum Command {
         /// Write the output to this file (whole or not at all) instead of standard output.
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
+        /// Fail only on findings that are not in this baseline (from `tauscan baseline`).
+        #[arg(long, value_name = "FILE")]
+        baseline: Option<PathBuf>,
+    },
+    /// Record today's findings in a baseline file, for `check --baseline`.
+    Baseline {
+        #[command(flatten)]
+        scan: ScanArgs,
+        /// The spec file (default: tauscan.yaml in the scan root or the nearest folder above).
+        #[arg(long, value_name = "FILE")]
+        spec: Option<PathBuf>,
+        /// Where to write the baseline.
+        #[arg(short, long, value_name = "FILE")]
+        output: PathBuf,
     },
     /// Print a rule's documentation (`tauscan explain --list` lists the rules).
     Explain {
@@ -275,7 +289,32 @@ fn run(cli: Cli) -> Result<Status> {
             fail_on,
             format,
             output,
-        } => check(&args, spec, fail_on, format, &output),
+            baseline,
+        } => check(&args, spec, fail_on, format, &output, baseline),
+        Command::Baseline {
+            scan: args,
+            spec,
+            output,
+        } => {
+            let loaded = load_spec(spec, &args.paths)?;
+            let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
+            let options = scan_options_with(&args, &spec)?;
+            let mut result = scan::run(&options);
+            print_notes(&result);
+            if result.incomplete {
+                bail!("the scan is incomplete (see the notes above); no baseline written");
+            }
+            let checked = tauscan::check::run(&mut result, &spec);
+            let entries = report::baseline::entries(&result, &checked, &spec);
+            report::write_atomically(&output, report::baseline::render(&entries).as_bytes())
+                .with_context(|| format!("cannot write {}", output.display()))?;
+            eprintln!(
+                "tauscan: recorded {} finding(s) in {}",
+                entries.len(),
+                output.display()
+            );
+            Ok(Status::Clean)
+        }
         Command::Explain { rule, list } => explain(rule.as_deref(), list),
         Command::Init {
             scan: args,
@@ -334,16 +373,40 @@ fn check(
     fail_on: FailOn,
     format: Format,
     output: &Option<PathBuf>,
+    baseline: Option<PathBuf>,
 ) -> Result<Status> {
     let loaded = load_spec(spec_path, &args.paths)?;
     let spec = loaded
         .as_ref()
         .map(|(_, _, s)| s.clone())
         .unwrap_or_default();
+    let known = match &baseline {
+        Some(path) => {
+            let text = std::fs::read_to_string(path)
+                .with_context(|| format!("cannot read the baseline {}", path.display()))?;
+            match report::baseline::parse(&text) {
+                Ok(entries) => Some(entries),
+                Err(e) => bail!("{}: {e}", path.display()),
+            }
+        }
+        None => None,
+    };
     let options = scan_options_with(args, &spec)?;
     let mut result = scan::run(&options);
     print_notes(&result);
-    let checked = tauscan::check::run(&mut result, &spec);
+    let mut checked = tauscan::check::run(&mut result, &spec);
+    if let Some(entries) = &known {
+        let gone = report::baseline::apply(&mut checked, &spec, entries);
+        for e in &gone {
+            eprintln!(
+                "tauscan: note: baseline entry no longer occurs: {} at {}:{} ({})",
+                e.rule,
+                report::neutral(e.file.as_deref().unwrap_or("spec")),
+                e.line.unwrap_or(0),
+                report::neutral(&e.message)
+            );
+        }
+    }
     let spec_name = loaded
         .as_ref()
         .map(|(p, _, _)| p.to_string_lossy().replace('\\', "/"));
@@ -400,7 +463,7 @@ fn check(
     let failing = checked
         .findings
         .iter()
-        .any(|f| f.suppressed.is_none() && f.severity >= fail_on.severity());
+        .any(|f| f.suppressed.is_none() && !f.baselined && f.severity >= fail_on.severity());
     Ok(if failing {
         Status::Findings
     } else {

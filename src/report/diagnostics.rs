@@ -102,9 +102,14 @@ pub fn render(scan: &Scan, result: &CheckResult, sources: &Sources, color: bool)
     let config = term::Config::default();
     let mut counts: HashMap<Severity, usize> = HashMap::new();
     let mut suppressed = 0;
+    let mut baselined = 0;
     for f in &result.findings {
         if f.suppressed.is_some() {
             suppressed += 1;
+            continue;
+        }
+        if f.baselined {
+            baselined += 1;
             continue;
         }
         *counts.entry(f.severity).or_insert(0) += 1;
@@ -128,10 +133,11 @@ pub fn render(scan: &Scan, result: &CheckResult, sources: &Sources, color: bool)
         plural(n(Severity::Note), "note"),
         plural(scan.recognition.smoothers.len(), "smoother"),
         plural(scan.program.files.len(), "file"),
-        if suppressed > 0 {
-            format!(" ({suppressed} suppressed with a reason)")
-        } else {
-            String::new()
+        match (suppressed, baselined) {
+            (0, 0) => String::new(),
+            (s, 0) => format!(" ({s} suppressed with a reason)"),
+            (0, b) => format!(" ({b} known from the baseline)"),
+            (s, b) => format!(" ({s} suppressed with a reason, {b} known from the baseline)"),
         }
     ));
     out

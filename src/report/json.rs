@@ -38,7 +38,7 @@
 //!     "file": "vent.c", "line": 42, "column": 5,      // the update or call; for a spec
 //!                                                     // entry, the spec file and line
 //!     "message": "…", "help": "…" | null,
-//!     "smoother": id | null, "suppressed": "reason" | null,
+//!     "smoother": id | null, "suppressed": "reason" | null, "baselined": false,
 //!     "labels": [ { "file": "vent.c", "line": 3, "message": "coefficient from …" } ]
 //!   } ],
 //!   "notes": [ { "file": "x.c", "line": 3 | null, "message": "…" } ]
@@ -175,6 +175,8 @@ struct FindingRecord {
     smoother: Option<String>,
     /// The reason of an inline suppression; the finding then does not fail the gate.
     suppressed: Option<String>,
+    /// In the baseline the gate was given: known, so it does not fail the gate.
+    baselined: bool,
     labels: Vec<LabelRecord>,
 }
 
@@ -352,6 +354,7 @@ pub fn render_with_findings(
                     help: f.help.clone(),
                     smoother: f.smoother.and_then(|i| all_ids.get(i).cloned()),
                     suppressed: f.suppressed.clone(),
+                    baselined: f.baselined,
                     labels: f
                         .labels
                         .iter()

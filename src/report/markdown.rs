@@ -34,7 +34,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
     let mut counts: BTreeMap<Severity, usize> = BTreeMap::new();
     let mut suppressed = 0;
     for f in &result.findings {
-        if f.suppressed.is_some() {
+        if f.suppressed.is_some() || f.baselined {
             suppressed += 1;
         } else {
             *counts.entry(f.severity).or_insert(0) += 1;
@@ -42,7 +42,11 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
     }
     let n = |s: Severity| counts.get(&s).copied().unwrap_or(0);
     let mut out = String::new();
-    let verdict = if n(Severity::Error) > 0 { "fails" } else { "passes" };
+    let verdict = if n(Severity::Error) > 0 {
+        "fails"
+    } else {
+        "passes"
+    };
     out.push_str(&format!(
         "### tauscan: the smoother check {verdict}\n\n**{}** error(s), **{}** warning(s), **{}** note(s) over {} smoother(s) in {} file(s){}.\n\n",
         n(Severity::Error),
@@ -51,7 +55,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
         scan.recognition.smoothers.len(),
         scan.program.files.len(),
         if suppressed > 0 {
-            format!("; {suppressed} suppressed with a reason")
+            format!("; {suppressed} suppressed with a reason or known from the baseline")
         } else {
             String::new()
         }
@@ -59,13 +63,15 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
     let mut with_findings: Vec<usize> = result
         .findings
         .iter()
-        .filter(|f| f.suppressed.is_none())
+        .filter(|f| f.suppressed.is_none() && !f.baselined)
         .filter_map(|f| f.smoother)
         .collect();
     with_findings.sort_unstable();
     with_findings.dedup();
     if !with_findings.is_empty() {
-        out.push_str("| smoother | where | coefficient | rate | cutoff | lag | dead band | findings |\n");
+        out.push_str(
+            "| smoother | where | coefficient | rate | cutoff | lag | dead band | findings |\n",
+        );
         out.push_str("|---|---|---|---|---|---|---|---|\n");
         for i in with_findings {
             let s = &scan.recognition.smoothers[i];
@@ -79,7 +85,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
             let rules: Vec<&str> = result
                 .findings
                 .iter()
-                .filter(|x| x.smoother == Some(i) && x.suppressed.is_none())
+                .filter(|x| x.smoother == Some(i) && x.suppressed.is_none() && !x.baselined)
                 .map(|x| x.rule)
                 .collect();
             out.push_str(&format!(
@@ -89,8 +95,12 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
                 s.span.line,
                 coefficient,
                 s.rate.hz.map(hertz).unwrap_or_else(|| "?".into()),
-                own.and_then(|o| o.cutoff_hertz).map(|h| hertz(h.0)).unwrap_or_else(|| "-".into()),
-                own.and_then(|o| o.lag_seconds).map(|t| seconds(t.0)).unwrap_or_else(|| "-".into()),
+                own.and_then(|o| o.cutoff_hertz)
+                    .map(|h| hertz(h.0))
+                    .unwrap_or_else(|| "-".into()),
+                own.and_then(|o| o.lag_seconds)
+                    .map(|t| seconds(t.0))
+                    .unwrap_or_else(|| "-".into()),
                 s.dead_band
                     .map(|d| format!("+{}/-{}", d.rising, d.falling))
                     .unwrap_or_else(|| "-".into()),
@@ -119,6 +129,9 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
             }
             if let Some(reason) = &f.suppressed {
                 out.push_str(&format!("  \n  suppressed: {}", cell(reason)));
+            }
+            if f.baselined {
+                out.push_str("  \n  known from the baseline");
             }
             out.push('\n');
         }

@@ -5,6 +5,7 @@
 //! escape sequences in source text cannot drive the reader's terminal. Files are written
 //! whole or not at all (`write_atomically`).
 
+pub mod baseline;
 pub mod diagnostics;
 pub mod json;
 pub mod markdown;

@@ -5,12 +5,13 @@
 //! and its default level. Each finding is a result with a location relative to the
 //! `SRCROOT` base (the scan root), related locations for the coefficient and the rate's
 //! source, a stable `partialFingerprints` entry that survives edits which only move lines
-//! (it hashes the rule, the smoother's id and the message's words, not line numbers), and
+//! (`rules::fingerprint`: the rule, the smoother's id and the message's words, not line
+//! numbers), a `baselineState` (`new`, or `unchanged` for a finding in the baseline), and
 //! an `inSource` suppression with its reason when one applies. Findings about the spec
 //! point at the spec file, relative to the same base when it lies inside the root.
 
 use crate::check::CheckResult;
-use crate::rules::{Finding, REGISTRY};
+use crate::rules::{fingerprint, REGISTRY};
 use crate::scan::Scan;
 use crate::spec::Severity;
 use serde_json::{json, Value};
@@ -22,39 +23,6 @@ fn level(s: Severity) -> &'static str {
         Severity::Warning => "warning",
         Severity::Note => "note",
     }
-}
-
-/// FNV-1a, 64 bits: small, stable across platforms and versions (unlike std's hasher).
-pub fn fnv1a(text: &str) -> String {
-    let mut hash: u64 = 0xcbf29ce484222325;
-    for b in text.bytes() {
-        hash ^= b as u64;
-        hash = hash.wrapping_mul(0x100000001b3);
-    }
-    format!("{hash:016x}")
-}
-
-/// What identifies a finding across edits that move lines: the rule, the smoother (or the
-/// spec entry) and the message with its numbers left out (so a retuned figure is the same
-/// finding, while a different smoother is not).
-pub fn fingerprint(f: &Finding, ids: &[String], spec_entry: Option<&str>) -> String {
-    let subject = f
-        .smoother
-        .and_then(|i| ids.get(i).cloned())
-        .or_else(|| spec_entry.map(str::to_string))
-        .unwrap_or_default();
-    let words: String = f
-        .message
-        .chars()
-        .map(|c| {
-            if c.is_ascii_digit() || c == '.' {
-                '#'
-            } else {
-                c
-            }
-        })
-        .collect();
-    fnv1a(&format!("{}\u{1f}{subject}\u{1f}{words}", f.rule))
 }
 
 fn uri_of(path: &str) -> String {
@@ -127,12 +95,6 @@ pub fn render(
         .iter()
         .map(|f| {
             let rule_index = REGISTRY.iter().position(|r| r.id == f.rule);
-            let spec_entry = f.spec_line.and_then(|line| {
-                spec.smoothers
-                    .iter()
-                    .find(|e| e.line == line)
-                    .map(|e| format!("{:?}", e.matcher))
-            });
             let mut locations = Vec::new();
             if let Some(span) = f.span {
                 locations.push(location(
@@ -169,7 +131,7 @@ pub fn render(
                 "message": { "text": text },
                 "locations": locations,
                 "partialFingerprints": {
-                    "tauscanFinding/v1": fingerprint(f, &result.ids, spec_entry.as_deref())
+                    "tauscanFinding/v1": fingerprint(f, &result.ids, spec)
                 },
             });
             if let Some(i) = rule_index {
@@ -178,6 +140,7 @@ pub fn render(
             if !related.is_empty() {
                 r["relatedLocations"] = json!(related);
             }
+            r["baselineState"] = json!(if f.baselined { "unchanged" } else { "new" });
             if let Some(reason) = &f.suppressed {
                 r["suppressions"] = json!([{ "kind": "inSource", "justification": reason }]);
             }
@@ -209,31 +172,6 @@ pub fn render(
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn fingerprints_ignore_numbers_but_not_subjects() {
-        let f = |smoother: usize, message: &str| Finding {
-            rule: "integer-dead-band",
-            severity: Severity::Warning,
-            span: None,
-            spec_line: None,
-            labels: Vec::new(),
-            message: message.into(),
-            help: None,
-            smoother: Some(smoother),
-            suppressed: None,
-        };
-        let ids = vec!["a.c::f::y".to_string(), "a.c::g::z".to_string()];
-        assert_eq!(
-            fingerprint(&f(0, "rests up to 7 counts"), &ids, None),
-            fingerprint(&f(0, "rests up to 15 counts"), &ids, None)
-        );
-        assert_ne!(
-            fingerprint(&f(0, "rests up to 7 counts"), &ids, None),
-            fingerprint(&f(1, "rests up to 7 counts"), &ids, None)
-        );
-        assert_eq!(fnv1a(""), "cbf29ce484222325");
-    }
 
     #[test]
     fn uris_are_relative_and_escaped() {

@@ -50,6 +50,8 @@ pub struct Finding {
     pub smoother: Option<usize>,
     /// The reason given by an inline suppression, when one applies.
     pub suppressed: Option<String>,
+    /// The finding is in the baseline the gate was given: known, not new.
+    pub baselined: bool,
 }
 
 impl Finding {
@@ -64,8 +66,50 @@ impl Finding {
             help: None,
             smoother: Some(smoother),
             suppressed: None,
+            baselined: false,
         }
     }
+}
+
+/// FNV-1a, 64 bits: small, and stable across platforms and versions (unlike std's hasher),
+/// which fingerprints kept in files need.
+pub fn fnv1a(text: &str) -> String {
+    let mut hash: u64 = 0xcbf29ce484222325;
+    for b in text.bytes() {
+        hash ^= b as u64;
+        hash = hash.wrapping_mul(0x100000001b3);
+    }
+    format!("{hash:016x}")
+}
+
+/// What identifies a finding across edits that move lines: the rule, the smoother's id
+/// (or the spec entry's matcher) and the message with its numbers left out, so a retuned
+/// figure is the same finding while another smoother is not.
+pub fn fingerprint(f: &Finding, ids: &[String], spec: &Spec) -> String {
+    let subject = f
+        .smoother
+        .and_then(|i| ids.get(i).cloned())
+        .or_else(|| {
+            f.spec_line.and_then(|line| {
+                spec.smoothers
+                    .iter()
+                    .find(|e| e.line == line)
+                    .map(|e| format!("{:?}", e.matcher))
+            })
+        })
+        .unwrap_or_default();
+    let words: String = f
+        .message
+        .chars()
+        .map(|c| {
+            if c.is_ascii_digit() || c == '.' {
+                '#'
+            } else {
+                c
+            }
+        })
+        .collect();
+    fnv1a(&format!("{}\u{1f}{subject}\u{1f}{words}", f.rule))
 }
 
 pub struct RuleInfo {

@@ -42,6 +42,7 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
             ),
             smoother: None,
             suppressed: None,
+            baselined: false,
         });
     }
 }

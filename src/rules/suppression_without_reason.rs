@@ -33,5 +33,6 @@ pub(super) fn finding(suppressed: &Finding, span: Span) -> Finding {
         )),
         smoother: suppressed.smoother,
         suppressed: None,
+        baselined: false,
     }
 }
