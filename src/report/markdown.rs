@@ -12,7 +12,8 @@ use std::collections::BTreeMap;
 /// Markdown-safe text for a table cell: no pipes, no HTML, no newlines.
 pub fn cell(text: &str) -> String {
     let mut out = String::with_capacity(text.len());
-    for c in crate::report::neutral(text).chars() {
+    let one_line = text.replace(['\n', '\r'], " ");
+    for c in crate::report::neutral(&one_line).chars() {
         match c {
             '|' => out.push_str("\\|"),
             '<' => out.push_str("&lt;"),
