@@ -5,6 +5,7 @@
 
 pub mod check;
 pub mod context;
+pub mod diff;
 pub mod eval;
 pub mod figures;
 pub mod index;

@@ -125,6 +125,19 @@ enum Command {
         #[arg(short, long, value_name = "FILE")]
         output: PathBuf,
     },
+    /// Compare the smoothers at a git revision with the work tree (or REV..REV2).
+    Diff {
+        /// The revision to compare from, or FROM..TO.
+        revisions: String,
+        #[command(flatten)]
+        scan: ScanArgs,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = Format::Table)]
+        format: Format,
+        /// Write the output to this file (whole or not at all) instead of standard output.
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+    },
     /// Print a rule's documentation (`tauscan explain --list` lists the rules).
     Explain {
         /// The rule id, e.g. integer-dead-band.
@@ -316,6 +329,12 @@ fn run(cli: Cli) -> Result<Status> {
             Ok(Status::Clean)
         }
         Command::Explain { rule, list } => explain(rule.as_deref(), list),
+        Command::Diff {
+            revisions,
+            scan: args,
+            format,
+            output,
+        } => diff(&revisions, &args, format, &output),
         Command::Init {
             scan: args,
             output,
@@ -469,6 +488,169 @@ fn check(
     } else {
         Status::Clean
     })
+}
+
+fn git(dir: &std::path::Path, args: &[&str]) -> Result<std::process::Output> {
+    std::process::Command::new("git")
+        .arg("-C")
+        .arg(dir)
+        .args(args)
+        .output()
+        .context("cannot run git (is it installed?)")
+}
+
+/// The files of `path` as they are at `rev`, extracted into `into`; returns the folder in
+/// `into` that corresponds to `path`.
+fn tree_at(
+    repo: &std::path::Path,
+    prefix: &str,
+    rev: &str,
+    into: &std::path::Path,
+) -> Result<PathBuf> {
+    let check = git(
+        repo,
+        &[
+            "rev-parse",
+            "--verify",
+            "--quiet",
+            &format!("{rev}^{{commit}}"),
+        ],
+    )?;
+    if !check.status.success() {
+        bail!(
+            "`{}` is not a revision of this repository (in a shallow clone, fetch it first)",
+            report::neutral(rev)
+        );
+    }
+    let mut archive = std::process::Command::new("git");
+    archive
+        .arg("-C")
+        .arg(repo)
+        .args(["archive", "--format=tar", rev]);
+    if !prefix.is_empty() {
+        archive.arg("--").arg(prefix);
+    }
+    let tar = archive.output().context("cannot run git archive")?;
+    if !tar.status.success() {
+        bail!(
+            "git archive {} failed: {}",
+            report::neutral(rev),
+            report::neutral(String::from_utf8_lossy(&tar.stderr).trim())
+        );
+    }
+    let mut untar = std::process::Command::new("tar")
+        .arg("-x")
+        .arg("-C")
+        .arg(into)
+        .stdin(std::process::Stdio::piped())
+        .spawn()
+        .context("cannot run tar")?;
+    if let Some(mut stdin) = untar.stdin.take() {
+        use std::io::Write;
+        stdin.write_all(&tar.stdout).context("cannot feed tar")?;
+    }
+    if !untar.wait().context("tar did not finish")?.success() {
+        bail!("cannot unpack the files of {}", report::neutral(rev));
+    }
+    let side = into.join(prefix);
+    std::fs::create_dir_all(&side).ok();
+    Ok(side)
+}
+
+/// Scans one side of a diff and applies the spec found in it (so rates are the real ones).
+fn scan_side(args: &ScanArgs, root: &std::path::Path) -> Result<scan::Scan> {
+    let side_args = ScanArgs {
+        paths: vec![root.to_path_buf()],
+        defines: args.defines.clone(),
+        rate: args.rate.clone(),
+        int_bits: args.int_bits,
+        exclude: args.exclude.clone(),
+    };
+    let spec_path = root.join(tauscan::spec::FILE_NAME);
+    let loaded = if spec_path.is_file() {
+        load_spec(Some(spec_path), &side_args.paths)?
+    } else {
+        None
+    };
+    let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
+    let options = scan_options_with(&side_args, &spec)?;
+    let mut result = scan::run(&options);
+    print_notes(&result);
+    if result.incomplete {
+        bail!(
+            "the scan of {} is incomplete (see the notes above)",
+            root.display()
+        );
+    }
+    tauscan::check::run(&mut result, &spec);
+    Ok(result)
+}
+
+fn diff(
+    revisions: &str,
+    args: &ScanArgs,
+    format: Format,
+    output: &Option<PathBuf>,
+) -> Result<Status> {
+    let path = match args.paths.as_slice() {
+        [] => PathBuf::from("."),
+        [one] => one.clone(),
+        _ => bail!("tauscan diff takes one path (a folder inside the repository)"),
+    };
+    if !path.is_dir() {
+        bail!("{} is not a folder", path.display());
+    }
+    let top = git(&path, &["rev-parse", "--show-toplevel"])?;
+    if !top.status.success() {
+        bail!("{} is not inside a git repository", path.display());
+    }
+    let repo = PathBuf::from(String::from_utf8_lossy(&top.stdout).trim());
+    let prefix_out = git(&path, &["rev-parse", "--show-prefix"])?;
+    let prefix = String::from_utf8_lossy(&prefix_out.stdout)
+        .trim()
+        .to_string();
+    let (from, to) = match revisions.split_once("..") {
+        Some((a, b)) if !a.is_empty() && !b.is_empty() => (a.to_string(), Some(b.to_string())),
+        Some(_) => bail!(
+            "`{}`: give FROM..TO with both revisions",
+            report::neutral(revisions)
+        ),
+        None => (revisions.to_string(), None),
+    };
+    let work = tempfile_dir()?;
+    let before_root = tree_at(&repo, &prefix, &from, &work.join("before"))?;
+    let after_root = match &to {
+        Some(rev) => tree_at(&repo, &prefix, rev, &work.join("after"))?,
+        None => path.clone(),
+    };
+    let before = scan_side(args, &before_root);
+    let after = scan_side(args, &after_root);
+    let _ = std::fs::remove_dir_all(&work);
+    let (before, after) = (before?, after?);
+    let changes = tauscan::diff::compare(&before, &after);
+    let to_label = to.clone().unwrap_or_else(|| "the work tree".into());
+    let text = match format {
+        Format::Json => report::diff::json(&changes, &from, &to_label),
+        Format::Markdown => report::diff::markdown(&changes, &from, &to_label),
+        Format::Table => report::diff::table(&changes, &from, &to_label),
+        Format::Sarif => bail!("--format sarif is for `tauscan check`"),
+    };
+    emit(&text, output)?;
+    Ok(Status::Clean)
+}
+
+/// A fresh private folder under the system's temporary folder.
+fn tempfile_dir() -> Result<PathBuf> {
+    let base = std::env::temp_dir();
+    for n in 0..1000u32 {
+        let dir = base.join(format!("tauscan-diff-{}-{n}", std::process::id()));
+        if std::fs::create_dir(&dir).is_ok() {
+            std::fs::create_dir(dir.join("before"))?;
+            std::fs::create_dir(dir.join("after"))?;
+            return Ok(dir);
+        }
+    }
+    bail!("cannot make a temporary folder in {}", base.display())
 }
 
 fn explain(rule: Option<&str>, list: bool) -> Result<Status> {

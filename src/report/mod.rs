@@ -7,6 +7,7 @@
 
 pub mod baseline;
 pub mod diagnostics;
+pub mod diff;
 pub mod json;
 pub mod markdown;
 pub mod sarif;
