@@ -79,6 +79,9 @@ struct ScanArgs {
     /// Paths (relative to the scan root) not to read; `*`, `**` and `?` work. Repeatable.
     #[arg(long, value_name = "GLOB")]
     exclude: Vec<String>,
+    /// Take the files and their -D/-I flags from a JSON compilation database.
+    #[arg(long, value_name = "FILE")]
+    compile_commands: Option<PathBuf>,
 }
 
 #[derive(Subcommand)]
@@ -222,6 +225,58 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
         args.paths.clone()
     };
     let mut defines = spec.defines.clone();
+    let mut paths = paths;
+    let mut root = None;
+    // A compilation database: its files and flags (the spec's path is relative to the
+    // spec's folder; the command line's to the current one).
+    let database = args.compile_commands.clone().or_else(|| {
+        spec.compile_commands.as_ref().map(|c| {
+            spec.path
+                .as_ref()
+                .and_then(|p| p.parent())
+                .map(|d| d.join(c))
+                .unwrap_or_else(|| PathBuf::from(c))
+        })
+    });
+    if let Some(db_path) = database {
+        let text = std::fs::read_to_string(&db_path).with_context(|| {
+            format!("cannot read the compilation database {}", db_path.display())
+        })?;
+        let base = db_path
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_else(|| PathBuf::from("."));
+        let db = tauscan::compdb::from_str(&text, &base)
+            .map_err(|e| anyhow::anyhow!("{}: {e}", db_path.display()))?;
+        for name in &db.conflicts {
+            eprintln!(
+                "tauscan: note: {}: `{}` is defined to different values by different files; the first is used",
+                db_path.display(),
+                report::neutral(name)
+            );
+        }
+        for (k, v) in &db.defines {
+            defines.entry(k.clone()).or_insert_with(|| v.clone());
+        }
+        let mut files = db.files.clone();
+        for dir in &db.include_dirs {
+            let headers = tauscan::walk::walk(std::slice::from_ref(dir), None, &|_| false);
+            files.extend(
+                headers
+                    .files
+                    .into_iter()
+                    .filter(|f| f.relative.ends_with(".h"))
+                    .map(|f| f.absolute),
+            );
+        }
+        // Canonical paths, so every file is reported relative to the same root.
+        let files: Vec<PathBuf> = files
+            .into_iter()
+            .map(|f| f.canonicalize().unwrap_or(f))
+            .collect();
+        root = Some(common_folder(&files).unwrap_or(base));
+        paths = files;
+    }
     defines.extend(parse_defines(&args.defines)?);
     let mut exclude = spec.exclude.clone();
     exclude.extend(args.exclude.iter().cloned());
@@ -237,7 +292,31 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
         recognise: RecogniseOptions { default_rate_hz },
         exclude,
         include: spec.include.clone(),
+        root,
     })
+}
+
+/// The deepest folder that holds every file.
+fn common_folder(files: &[PathBuf]) -> Option<PathBuf> {
+    let mut common: Option<PathBuf> = None;
+    for f in files {
+        let absolute = f.canonicalize().unwrap_or_else(|_| f.clone());
+        let dir = absolute.parent()?.to_path_buf();
+        common = Some(match common {
+            None => dir,
+            Some(c) => {
+                let mut prefix = PathBuf::new();
+                for (a, b) in c.components().zip(dir.components()) {
+                    if a != b {
+                        break;
+                    }
+                    prefix.push(a);
+                }
+                prefix
+            }
+        });
+    }
+    common
 }
 
 fn print_notes(scan: &scan::Scan) {
@@ -565,6 +644,7 @@ fn scan_side(args: &ScanArgs, root: &std::path::Path) -> Result<scan::Scan> {
         rate: args.rate.clone(),
         int_bits: args.int_bits,
         exclude: args.exclude.clone(),
+        compile_commands: None,
     };
     let spec_path = root.join(tauscan::spec::FILE_NAME);
     let loaded = if spec_path.is_file() {

@@ -22,6 +22,9 @@ pub struct ScanOptions {
     pub exclude: Vec<String>,
     /// When not empty, only relative paths matching one of these globs are read.
     pub include: Vec<String>,
+    /// The folder paths are reported relative to (default: the one folder given, or the
+    /// current one).
+    pub root: Option<PathBuf>,
 }
 
 /// A note about one file or the scan as a whole, for stderr and the JSON `notes`.
@@ -121,7 +124,7 @@ fn run_here(options: &ScanOptions) -> Scan {
         excluded(&options.exclude, rel)
             || (!include.is_empty() && !include.iter().any(|m| m.is_match(rel)))
     };
-    let walked: WalkResult = walk::walk(&options.paths, &skip);
+    let walked: WalkResult = walk::walk(&options.paths, options.root.as_deref(), &skip);
     let mut notes: Vec<ScanNote> = walked
         .problems
         .iter()

@@ -178,6 +178,9 @@ pub struct Spec {
     pub path: Option<PathBuf>,
     pub include: Vec<String>,
     pub exclude: Vec<String>,
+    /// A JSON compilation database (relative to the spec's folder) whose files and flags
+    /// the scan takes.
+    pub compile_commands: Option<String>,
     pub defines: BTreeMap<String, String>,
     pub int_bits: Option<u8>,
     pub fpu: Option<bool>,
@@ -216,6 +219,7 @@ struct RawScan {
     include: Vec<String>,
     #[serde(default)]
     exclude: Vec<String>,
+    compile_commands: Option<String>,
 }
 
 #[derive(Deserialize, Default)]
@@ -579,6 +583,7 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
     for pattern in &raw.scan.exclude {
         spec.exclude.push(reader.glob(pattern, "scan.exclude", 1)?);
     }
+    spec.compile_commands = raw.scan.compile_commands.clone();
     for (name, value) in &raw.defines {
         let valid = !name.is_empty()
             && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')

@@ -73,9 +73,11 @@ pub fn relative_to(root: &Path, path: &Path) -> String {
     text.trim_start_matches("./").to_string()
 }
 
-/// Lists the C files under `paths`.
-pub fn walk(paths: &[PathBuf], excluded: &dyn Fn(&str) -> bool) -> WalkResult {
-    let root = scan_root(paths);
+/// Lists the C files under `paths`, with paths relative to `root` (default: `scan_root`).
+pub fn walk(paths: &[PathBuf], root: Option<&Path>, excluded: &dyn Fn(&str) -> bool) -> WalkResult {
+    let root = root
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| scan_root(paths));
     let canonical_root = root.canonicalize().unwrap_or_else(|_| root.clone());
     let mut result = WalkResult {
         root: root.clone(),
