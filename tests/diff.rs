@@ -126,3 +126,37 @@ fn outside_a_repository_and_unknown_revisions_are_clear_errors() {
         "{err}"
     );
 }
+
+#[test]
+fn a_shallow_clone_works_once_the_base_is_fetched() {
+    let dir = repo();
+    let clone = tempfile::tempdir().unwrap();
+    let url = format!("file://{}", dir.path().display());
+    let out = Command::new("git")
+        .args(["clone", "-q", "--depth=1", &url])
+        .arg(clone.path().join("c"))
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let c = clone.path().join("c");
+    let base = Command::new("git")
+        .arg("-C")
+        .arg(dir.path())
+        .args(["rev-parse", "HEAD~1"])
+        .output()
+        .unwrap();
+    let base = String::from_utf8_lossy(&base.stdout).trim().to_string();
+    // Before the fetch the base is not there: a clear error, not a wrong diff.
+    let (status, _, err) = diff(&c.join("firmware"), &[&base]);
+    assert_eq!(status, 2);
+    assert!(err.contains("fetch it first"), "{err}");
+    git(&c, &["fetch", "-q", "--depth=1", "origin", &base]);
+    let (status, out, err) = diff(&c.join("firmware"), &[&base, "--format", "json"]);
+    assert_eq!(status, 0, "{err}");
+    let doc: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(doc["changed"][0]["id"], "battery.c::bms_tick::cell_v");
+}
