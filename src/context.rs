@@ -292,7 +292,7 @@ pub mod propagate {
         // The call graph, caller -> callees, by function.
         let mut callees: BTreeMap<FuncRef, Vec<FuncRef>> = BTreeMap::new();
         for call in program.calls() {
-            if let Some(callee) = program.function_by_name(&call.callee) {
+            if let Some(callee) = program.resolve_call(call.caller, &call.callee) {
                 let list = callees.entry(call.caller).or_default();
                 if !list.contains(&callee) {
                     list.push(callee);
@@ -303,7 +303,9 @@ pub mod propagate {
             let starts: Vec<FuncRef> = match &rate.scope {
                 // Constants are applied per smoother (by its derivation), not by function.
                 RateScope::Constant { .. } => continue,
-                RateScope::Function(name) => program.function_by_name(name).into_iter().collect(),
+                // Every function of that name: an entry is usually unique, and a static one
+                // in several files is named for all of them.
+                RateScope::Function(name) => program.functions_named(name).to_vec(),
                 RateScope::Path(glob) => {
                     let Ok(matcher) = globset::Glob::new(glob).map(|g| g.compile_matcher()) else {
                         continue;

@@ -239,6 +239,29 @@ impl Program {
             .or_else(|| refs.first().copied())
     }
 
+    /// The function a call from `caller` to `name` reaches: one of that name in the
+    /// caller's own file first (a `static` function is visible only there), else one that
+    /// is not `static`, else any.
+    pub fn resolve_call(&self, caller: FuncRef, name: &str) -> Option<FuncRef> {
+        let refs = self.functions.get(name)?;
+        let built = |f: &&FuncRef| self.condition_holds(&self.function(**f).condition);
+        refs.iter()
+            .filter(built)
+            .find(|f| f.file == caller.file)
+            .or_else(|| {
+                refs.iter()
+                    .filter(built)
+                    .find(|f| !self.function(**f).is_static)
+            })
+            .or_else(|| refs.first())
+            .copied()
+    }
+
+    /// All functions of a name (static functions of the same name in several files).
+    pub fn functions_named(&self, name: &str) -> &[FuncRef] {
+        self.functions.get(name).map(Vec::as_slice).unwrap_or(&[])
+    }
+
     pub fn path(&self, file: FileId) -> &str {
         self.paths
             .get(file.0 as usize)

@@ -177,6 +177,11 @@ enum DebugWhat {
     Syntax { file: PathBuf },
     /// The lowered IR.
     Ir { file: PathBuf },
+    /// Walk and parse every file as `check` does, and nothing more (the benchmark's floor).
+    ParseOnly {
+        #[command(flatten)]
+        scan: ScanArgs,
+    },
 }
 
 fn int_bits(text: &str) -> Result<u8, String> {
@@ -424,6 +429,18 @@ fn run(cli: Cli) -> Result<Status> {
             let (file, ir) = match &what {
                 DebugWhat::Syntax { file } => (file, false),
                 DebugWhat::Ir { file } => (file, true),
+                DebugWhat::ParseOnly { scan: args } => {
+                    let options = scan_options(args)?;
+                    let seen = scan::parse_only(&options);
+                    emit(
+                        &format!(
+                            "{} files, {} bytes, {} lines parsed\n",
+                            seen.files, seen.bytes, seen.lines
+                        ),
+                        &None,
+                    )?;
+                    return Ok(Status::Clean);
+                }
             };
             let bytes =
                 std::fs::read(file).with_context(|| format!("cannot read {}", file.display()))?;
@@ -456,7 +473,10 @@ fn load_spec(
     };
     let text = std::fs::read_to_string(&path)
         .with_context(|| format!("cannot read the spec {}", path.display()))?;
-    match tauscan::spec::from_str(&text) {
+    let ids: Vec<&str> = tauscan::rules::REGISTRY.iter().map(|r| r.id).collect();
+    match tauscan::spec::from_str(&text)
+        .and_then(|spec| tauscan::spec::check_rule_ids(&spec, &text, &ids).map(|_| spec))
+    {
         Ok(mut spec) => {
             spec.path = Some(path.clone());
             Ok(Some((path, text, spec)))
@@ -505,9 +525,18 @@ fn check(
             );
         }
     }
-    let spec_name = loaded
-        .as_ref()
-        .map(|(p, _, _)| p.to_string_lossy().replace('\\', "/"));
+    // The spec's name as findings show it: relative to the scan root when it is inside it
+    // (the same on every machine), else as found.
+    let spec_name = loaded.as_ref().map(|(p, _, _)| {
+        let inside = result.root.canonicalize().ok().and_then(|root| {
+            p.canonicalize()
+                .ok()?
+                .strip_prefix(&root)
+                .ok()
+                .map(|r| r.to_string_lossy().replace('\\', "/"))
+        });
+        inside.unwrap_or_else(|| p.to_string_lossy().replace('\\', "/"))
+    });
     let text = match format {
         Format::Markdown => report::markdown::render(&result, &checked),
         Format::Sarif => {

@@ -97,6 +97,51 @@ pub fn glob_match(pattern: &str, text: &str) -> bool {
     go(pattern.as_bytes(), text.as_bytes())
 }
 
+/// What a parse-only pass saw (for the benchmark's baseline).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ParseOnly {
+    pub files: usize,
+    pub bytes: u64,
+    pub lines: u64,
+}
+
+/// Walks and parses every file exactly as `run` does (same walker, same pool, same
+/// lowering) and keeps nothing: the floor the full check is measured against.
+pub fn parse_only(options: &ScanOptions) -> ParseOnly {
+    let work = || {
+        let skip = |rel: &str| excluded(&options.exclude, rel);
+        let walked = walk::walk(&options.paths, options.root.as_deref(), &skip);
+        walked
+            .files
+            .par_iter()
+            .enumerate()
+            .map(|(i, source)| match std::fs::read(&source.absolute) {
+                Ok(bytes) => {
+                    let ir = crate::parse::parse_file(FileId(i as u32), &bytes);
+                    drop(ir);
+                    ParseOnly {
+                        files: 1,
+                        bytes: bytes.len() as u64,
+                        lines: bytes.iter().filter(|b| **b == b'\n').count() as u64,
+                    }
+                }
+                Err(_) => ParseOnly::default(),
+            })
+            .reduce(ParseOnly::default, |a, b| ParseOnly {
+                files: a.files + b.files,
+                bytes: a.bytes + b.bytes,
+                lines: a.lines + b.lines,
+            })
+    };
+    match rayon::ThreadPoolBuilder::new()
+        .stack_size(WORKER_STACK)
+        .build()
+    {
+        Ok(pool) => pool.install(work),
+        Err(_) => work(),
+    }
+}
+
 /// Stack for each worker: lowering and recognition recurse over the syntax, which a
 /// generated state machine can nest deeply, and debug builds use large frames.
 const WORKER_STACK: usize = 64 << 20;

@@ -6,7 +6,7 @@
 //! the file (upward from the scan root) is `find`; reading it is the caller's.
 //!
 //! ```yaml
-//! scan:     { include: ["src/**"], exclude: ["vendor/**"] }
+//! scan:     { include: ["src/**"], exclude: ["vendor/**"] }   # and compile_commands: FILE
 //! defines:  { VENT_FAST_CURRENT: 1 }
 //! target:   { int_bits: 16, fpu: false }
 //! rates:
@@ -16,9 +16,12 @@
 //!   - { function: on_packet, event: true }           # runs per event: no rate in Hz
 //!   - { constant: LOOP_PERIOD_US, unit: us }         # a constant of the code is the rate
 //! defaults:
+//!   input: { range: [0, 4095], per_count: 0.8, unit: mV }
 //!   requires: { max_dead_band: "4 counts" }
 //! smoothers:
-//!   - match: { id: "climate.c::climate_step::air_temp_c.y" }    # or path/function/state, or tag
+//!   - match: { id: "climate.c::climate_step::air_temp_c.y" }
+//!   - match: { path: "src/*.c", function: vent_tick, state: vent_ma }
+//!   - match: { tag: throttle }                       # a `tauscan: tag throttle` comment
 //!     input: { range: [0, 4095], per_count: 0.8, unit: mV }
 //!     requires:
 //!       cutoff: { min: "0.4 Hz", max: "0.6 Hz" }
@@ -376,6 +379,29 @@ impl Reader<'_> {
         }
     }
 
+    /// Where a key's value is: the first line from `from_line` on that holds both the key
+    /// and the value (the same text can stand under several keys), else the value alone.
+    fn error_at_key(&self, key: &str, value: &str, from_line: usize, message: String) -> SpecError {
+        let last = key.rsplit('.').next().unwrap_or(key);
+        for (i, line) in self
+            .text
+            .lines()
+            .enumerate()
+            .skip(from_line.saturating_sub(1))
+        {
+            if let (Some(k), Some(v)) = (line.find(&format!("{last}:")), line.rfind(value)) {
+                if v > k {
+                    return SpecError {
+                        line: Some(i + 1),
+                        column: Some(v + 1),
+                        message,
+                    };
+                }
+            }
+        }
+        self.error_at(value, from_line, message)
+    }
+
     fn quantity<T>(
         &self,
         text: &str,
@@ -383,7 +409,7 @@ impl Reader<'_> {
         from_line: usize,
         parse: fn(&str) -> Result<T, QuantityError>,
     ) -> Result<T, SpecError> {
-        parse(text).map_err(|e| self.error_at(text, from_line, format!("{key}: {e}")))
+        parse(text).map_err(|e| self.error_at_key(key, text, from_line, format!("{key}: {e}")))
     }
 
     fn requirements(
@@ -404,7 +430,8 @@ impl Reader<'_> {
             if let (Some(lo), Some(hi)) = (req.cutoff_min, req.cutoff_max) {
                 if lo.0 > hi.0 {
                     let needle = range.min.as_deref().unwrap_or("cutoff");
-                    return Err(self.error_at(
+                    return Err(self.error_at_key(
+                        "min",
                         needle,
                         from_line,
                         format!(
@@ -450,8 +477,14 @@ impl Reader<'_> {
         }
         if let Some(value) = &raw.max_dead_band {
             let text = value_text(value);
-            let counts = quantity::parse_counts(&text)
-                .map_err(|e| self.error_at(&text, from_line, format!("max_dead_band: {e}")))?;
+            let counts = quantity::parse_counts(&text).map_err(|e| {
+                self.error_at_key(
+                    "max_dead_band",
+                    &text,
+                    from_line,
+                    format!("max_dead_band: {e}"),
+                )
+            })?;
             req.max_dead_band = Some(counts);
         }
         Ok(req)
@@ -505,6 +538,29 @@ fn value_text(v: &serde_norway::Value) -> String {
     }
 }
 
+/// Rule ids under `rules:` that no rule has: an error at the id's line, with the nearest
+/// id, so a misspelt rule is not silently left on.
+pub fn check_rule_ids(spec: &Spec, text: &str, known: &[&str]) -> Result<(), SpecError> {
+    for id in spec.rules.keys() {
+        if known.contains(&id.as_str()) {
+            continue;
+        }
+        let near = known
+            .iter()
+            .map(|k| (strsim::damerau_levenshtein(id, k), *k))
+            .min()
+            .map(|(_, k)| k)
+            .unwrap_or("");
+        let (line, column) = locate(text, id, locate(text, "rules:", 1).0.unwrap_or(1));
+        return Err(SpecError {
+            line,
+            column,
+            message: format!("rules: no rule `{id}` (did you mean `{near}`? `tauscan explain --list` lists them)"),
+        });
+    }
+    Ok(())
+}
+
 /// The 1-based line of the `index`-th item under the top-level key `section`.
 fn item_line(text: &str, section: &str, index: usize) -> usize {
     let (start, _) = locate(text, &format!("{section}:"), 1);
@@ -553,11 +609,29 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
             // serde names the unknown key; add the nearest one the spec knows.
             if let Some(rest) = message.split("unknown field `").nth(1) {
                 if let Some(key) = rest.split('`').next() {
-                    if let Some(near) = nearest_key(key) {
-                        message = format!("unknown key `{key}` (did you mean `{near}`?)");
-                    } else {
-                        message = format!("unknown key `{key}`");
-                    }
+                    // The keys valid at this place, as serde lists them.
+                    let expected: Vec<&str> = rest
+                        .split("expected ")
+                        .nth(1)
+                        .map(|list| list.split('`').skip(1).step_by(2).collect())
+                        .unwrap_or_default();
+                    let near_here = expected
+                        .iter()
+                        .map(|k| (strsim::damerau_levenshtein(key, k), *k))
+                        .filter(|(d, k)| *d <= 2.max(k.len() / 3))
+                        .min()
+                        .map(|(_, k)| k);
+                    message = match (near_here, nearest_key(key)) {
+                        (Some(near), _) => format!("unknown key `{key}` (did you mean `{near}`?)"),
+                        (None, Some(near)) if near == key => format!(
+                            "`{key}` does not belong here (valid here: {})",
+                            expected.join(", ")
+                        ),
+                        (None, Some(near)) => {
+                            format!("unknown key `{key}` (did you mean `{near}`?)")
+                        }
+                        (None, None) => format!("unknown key `{key}`"),
+                    };
                 }
             }
             // The location is already in the error's own text; keep the message plain.
@@ -673,8 +747,9 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
         };
         spec.rates.push(RateSpec { scope, rate, line });
     }
-    spec.defaults = reader.requirements(&raw.defaults.requires, 1)?;
-    spec.default_input = reader.input(&raw.defaults.input, 1)?;
+    let defaults_line = locate(text, "defaults:", 1).0.unwrap_or(1);
+    spec.defaults = reader.requirements(&raw.defaults.requires, defaults_line)?;
+    spec.default_input = reader.input(&raw.defaults.input, defaults_line)?;
     for (i, s) in raw.smoothers.iter().enumerate() {
         let line = item_line(text, "smoothers", i);
         let m = &s.matcher;

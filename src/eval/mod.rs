@@ -515,7 +515,7 @@ impl<'p> Evaluator<'p> {
             let address = format!("&{base}");
             let calls: Vec<_> = self.program.calls_passing(&address).cloned().collect();
             for call in calls {
-                let Some(callee) = self.program.function_by_name(&call.callee) else {
+                let Some(callee) = self.program.resolve_call(call.caller, &call.callee) else {
                     continue;
                 };
                 let function = self.program.function(callee).clone();
@@ -673,7 +673,11 @@ impl<'p> Evaluator<'p> {
                 });
             }
         }
-        let Some(f) = self.program.function_by_name(name) else {
+        let resolved = match scope.function {
+            Some(caller) => self.program.resolve_call(caller, name),
+            None => self.program.function_by_name(name),
+        };
+        let Some(f) = resolved else {
             return Err(Unknown::new(format!(
                 "{name}() is not defined in the scanned files"
             )));

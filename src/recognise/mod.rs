@@ -267,7 +267,13 @@ fn expand_candidate(
         .root_ident()
         .and_then(|root| function.params.iter().position(|p| p.name == root));
     if let Some(_position) = through_param {
-        let calls: Vec<_> = program.calls_to(&function.name).cloned().collect();
+        // Only the calls that reach this very function (a static one of the same name in
+        // another file is another function).
+        let calls: Vec<_> = program
+            .calls_to(&function.name)
+            .filter(|c| program.resolve_call(c.caller, &c.callee) == Some(candidate.function))
+            .cloned()
+            .collect();
         if !calls.is_empty() && depth < MAX_INSTANCE_DEPTH {
             for call in calls {
                 let mut map = HashMap::new();
@@ -923,7 +929,7 @@ impl<'p> Walker<'p> {
                 if !hands_state || self.program.is_macro(name) || depth >= MAX_MACRO_DEPTH {
                     return None;
                 }
-                let body = inline_function(self.program, name, args)?;
+                let body = inline_function(self.program, self.function, name, args)?;
                 Some(self.subst_carrying_depth(&body, state, depth + 1))
             }
             _ => None,
@@ -989,8 +995,8 @@ impl<'p> Walker<'p> {
 
 /// The value a small helper returns, with its parameters replaced by the arguments: its
 /// body may declare temporaries and must end in `return EXPR;`.
-fn inline_function(program: &Program, name: &str, args: &[Expr]) -> Option<Expr> {
-    let f = program.function_by_name(name)?;
+fn inline_function(program: &Program, caller: FuncRef, name: &str, args: &[Expr]) -> Option<Expr> {
+    let f = program.resolve_call(caller, name)?;
     let function = program.function(f);
     if function.params.len() != args.len() || function.body.len() > 8 {
         return None;

@@ -29,7 +29,8 @@ pub fn sig3(v: f64) -> String {
 }
 
 pub fn hertz(v: f64) -> String {
-    if v >= 1e3 {
+    // Round first: 999.99 Hz reads as 1 kHz, as people write it.
+    if sig3(v).parse::<f64>().unwrap_or(v) >= 1e3 {
         format!("{} kHz", sig3(v / 1e3))
     } else {
         format!("{} Hz", sig3(v))

@@ -13,6 +13,30 @@ pub const RULE: RuleInfo = RuleInfo {
 };
 
 fn check(ctx: &Context, out: &mut Vec<Finding>) {
+    // A rate for an entry function that is not in the code: a renamed interrupt would
+    // otherwise lose its rate without a word.
+    for rate in &ctx.spec.rates {
+        let crate::spec::RateScope::Function(name) = &rate.scope else {
+            continue;
+        };
+        if !ctx.scan.program.functions_named(name).is_empty() {
+            continue;
+        }
+        out.push(Finding {
+            rule: RULE.id,
+            severity: RULE.severity,
+            span: None,
+            spec_line: Some(rate.line),
+            labels: Vec::new(),
+            message: format!(
+                "the rate entry for function `{name}` names no function in the scanned code"
+            ),
+            help: Some("update the entry if the function was renamed, or remove it".into()),
+            smoother: None,
+            suppressed: None,
+            baselined: false,
+        });
+    }
     for (e, entry) in ctx.spec.smoothers.iter().enumerate() {
         if ctx.matched.iter().any(|m| m.contains(&e)) {
             continue;
