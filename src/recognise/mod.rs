@@ -1114,6 +1114,13 @@ impl<'a> Linearizer<'a> {
             ExprKind::Cast { arg, .. } => self.lin(arg),
             ExprKind::Binary { op, lhs, rhs } => {
                 use BinaryOp::*;
+                // `(E - y)` and `(y - E)`: the written grouping says E is the input, however
+                // it is scaled (`0.05f * raw - y` smooths 0.05 raw), so E is one atom.
+                if *op == Sub {
+                    if let Some(poly) = self.grouped_difference(lhs, rhs)? {
+                        return Ok(poly);
+                    }
+                }
                 match op {
                     Add => Ok(self.lin(lhs)?.add(&self.lin(rhs)?)),
                     Sub => Ok(self.lin(lhs)?.sub(&self.lin(rhs)?)),
@@ -1166,6 +1173,33 @@ impl<'a> Linearizer<'a> {
             }
             _ => self.leaf(e),
         }
+    }
+
+    fn grouped_difference(&mut self, lhs: &Expr, rhs: &Expr) -> Result<Option<Poly>, NotAffine> {
+        let is_state = |e: &Expr| e.is_place() && e.to_string() == self.state;
+        let (input, state_first) = if is_state(rhs) {
+            (lhs, false)
+        } else if is_state(lhs) {
+            (rhs, true)
+        } else {
+            return Ok(None);
+        };
+        let mut named = false;
+        input.walk(&mut |x| {
+            named |= matches!(
+                x.kind,
+                ExprKind::Ident(_)
+                    | ExprKind::Field { .. }
+                    | ExprKind::Index { .. }
+                    | ExprKind::Call { .. }
+            )
+        });
+        if input.is_place() || !named || self.mentions_state(input) {
+            return Ok(None);
+        }
+        let u = self.leaf(input)?;
+        let y = self.lin(if state_first { lhs } else { rhs })?;
+        Ok(Some(if state_first { y.sub(&u) } else { u.sub(&y) }))
     }
 
     /// An opaque sub-expression: fine as a coefficient or input, not if it hides the state.
@@ -1987,13 +2021,12 @@ fn compile(
         return None;
     }
     let text = e.to_string();
-    if e.is_place() || matches!(e.kind, ExprKind::Call { .. }) {
-        if text == state {
-            return Some(sim::Node::Slot(0));
-        }
-        if let Some(i) = inputs.iter().position(|s| *s == text) {
-            return Some(sim::Node::Slot(i + 1));
-        }
+    if e.is_place() && text == state {
+        return Some(sim::Node::Slot(0));
+    }
+    // An input may be any expression the affine reading kept whole (`0.05f * raw`).
+    if let Some(i) = inputs.iter().position(|s| *s == text) {
+        return Some(sim::Node::Slot(i + 1));
     }
     let sub = |x: &Expr| compile(program, scope, x, state, inputs, depth + 1).map(Box::new);
     Some(match &e.kind {
