@@ -598,8 +598,50 @@ fn spec_constant_rate_check(r: &RawRate, line: usize) -> Result<(), SpecError> {
     Ok(())
 }
 
+/// Deeper nesting than this is no spec a person writes; the YAML reader would take a very
+/// long time over it, so it is refused before reading.
+const MAX_NESTING: usize = 64;
+/// Larger than this is no spec either.
+const MAX_SPEC_BYTES: usize = 4 << 20;
+
+/// Refuses a text nested deeper than `MAX_NESTING` (flow brackets or indentation).
+fn check_shape(text: &str) -> Result<(), SpecError> {
+    if text.len() > MAX_SPEC_BYTES {
+        return Err(SpecError {
+            line: None,
+            column: None,
+            message: format!("the spec is larger than {} MiB", MAX_SPEC_BYTES >> 20),
+        });
+    }
+    let mut depth = 0usize;
+    for (i, line) in text.lines().enumerate() {
+        let indent = line.len() - line.trim_start_matches([' ', '-']).len();
+        let mut quote: Option<char> = None;
+        for (col, c) in line.chars().enumerate() {
+            match (quote, c) {
+                (Some(q), c) if c == q => quote = None,
+                (Some(_), _) => {}
+                (None, '"') | (None, '\'') => quote = Some(c),
+                (None, '#') => break,
+                (None, '[') | (None, '{') => depth += 1,
+                (None, ']') | (None, '}') => depth = depth.saturating_sub(1),
+                _ => {}
+            }
+            if depth > MAX_NESTING || indent / 2 > MAX_NESTING {
+                return Err(SpecError {
+                    line: Some(i + 1),
+                    column: Some(col + 1),
+                    message: format!("the spec nests deeper than {MAX_NESTING} levels"),
+                });
+            }
+        }
+    }
+    Ok(())
+}
+
 /// Reads and validates a spec from its text.
 pub fn from_str(text: &str) -> Result<Spec, SpecError> {
+    check_shape(text)?;
     let raw: RawSpec = if text.trim().is_empty() {
         RawSpec::default()
     } else {
@@ -921,6 +963,28 @@ rules:
                 "the example lacks `{key}`"
             );
         }
+    }
+
+    #[test]
+    fn hostile_shapes_are_refused_quickly() {
+        let deep = format!(
+            "smoothers: {}{}\n",
+            "[".repeat(100_000),
+            "]".repeat(100_000)
+        );
+        let e = from_str(&deep).unwrap_err();
+        assert!(e.message.contains("nests deeper"), "{e}");
+        // An alias bomb stops at the reader's repetition limit.
+        let mut bomb = String::from(
+            "defines:\n  A: &a [\"l\",\"l\",\"l\",\"l\",\"l\",\"l\",\"l\",\"l\",\"l\"]\n",
+        );
+        let mut prev = 'a';
+        for c in 'b'..='i' {
+            let refs = vec![format!("*{prev}"); 9].join(",");
+            bomb.push_str(&format!("  {}: &{c} [{refs}]\n", c.to_ascii_uppercase()));
+            prev = c;
+        }
+        assert!(from_str(&bomb).is_err());
     }
 
     #[test]

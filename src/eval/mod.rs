@@ -92,6 +92,10 @@ pub struct Evaluator<'p> {
     /// A macro definition to use instead of the active one (to evaluate the value under
     /// another preprocessor branch).
     pub macro_override: Option<MacroDef>,
+    /// Divide integers as real numbers (`1/8` is 0.125), to see what a constant was meant
+    /// to be where C's truncating division (C11 6.5.5) changes it. Everything else keeps
+    /// the C rules, conversions to a declared type included.
+    pub real_arithmetic: bool,
     pub chain: Vec<ChainStep>,
     pub flags: Flags,
     depth: u32,
@@ -104,6 +108,7 @@ impl<'p> Evaluator<'p> {
         Evaluator {
             program,
             macro_override: None,
+            real_arithmetic: false,
             chain: Vec::new(),
             flags: Flags::default(),
             depth: 0,
@@ -210,6 +215,12 @@ impl<'p> Evaluator<'p> {
                     return Ok(Num::int(1, target.int(true)));
                 }
                 let b = self.eval(rhs, scope)?;
+                let both_int = !a.is_float() && !b.is_float();
+                let (a, b) = if self.real_arithmetic && *op == BinaryOp::Div && both_int {
+                    (Num::double(a.as_f64()), Num::double(b.as_f64()))
+                } else {
+                    (a, b)
+                };
                 let out = num::binary(*op, a, b, target)?;
                 self.note(out.signed_overflow, out.unsigned_wrap);
                 Ok(out.value)
@@ -1028,6 +1039,25 @@ mod tests {
         // Source: C11 6.5.5p6 and 6.3.1.4: 1/8 is computed in int, then converted.
         let p = program("float a = 1/8;\n");
         assert_eq!(value(&p, "a").unwrap().as_f64(), 0.0);
+    }
+
+    #[test]
+    fn real_arithmetic_divides_integers_exactly_and_keeps_conversions() {
+        // Source: C11 6.5.5p6 (1/8 truncates to 0 in C); real arithmetic gives 0.125, and
+        // the conversion to a declared int (C11 6.3.1.4) still truncates 15/2 to 7.
+        let p = program("#define K (1/3*2.0f)\nfloat a = 1/8;\nconst int n = 15/2;\n");
+        let real = |text: &str| {
+            let e = parse_expression(text, Span::default()).unwrap();
+            let mut ev = Evaluator::new(&p);
+            ev.real_arithmetic = true;
+            ev.eval(&e, &Scope::default()).unwrap().as_f64()
+        };
+        assert_eq!(value(&p, "a").unwrap().as_f64(), 0.0);
+        assert_eq!(real("a"), 0.125);
+        assert_eq!(value(&p, "K").unwrap().as_f64(), 0.0);
+        assert!((real("K") - 2.0 / 3.0).abs() < 1e-7, "{}", real("K"));
+        assert_eq!(real("n"), 7.0);
+        assert_eq!(real("1.0f / 3"), (1.0f32 / 3.0f32) as f64);
     }
 
     #[test]

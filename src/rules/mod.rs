@@ -12,10 +12,15 @@ use crate::recognise::Smoother;
 use crate::scan::Scan;
 use crate::spec::{Input, Requirements, Severity, Spec};
 
+mod coefficient_out_of_range;
+mod coefficient_truncated;
 mod cutoff_outside_requirement;
+mod dc_gain_not_one;
 mod dead_band_over_requirement;
+mod float_state_absorbs_updates;
 mod help;
 mod integer_dead_band;
+mod integer_overflow;
 mod lag_over_requirement;
 mod noise_reduction_under_requirement;
 mod rate_ambiguous;
@@ -23,7 +28,9 @@ mod rate_mismatch;
 mod rate_unknown;
 mod settling_over_requirement;
 mod spec_entry_unmatched;
+mod state_not_persistent;
 mod suppression_without_reason;
+mod unsigned_difference_wraps;
 
 /// A secondary place a finding points at (the coefficient's definition, the rate's source).
 #[derive(Debug, Clone, PartialEq)]
@@ -171,6 +178,13 @@ pub static REGISTRY: &[RuleInfo] = &[
     noise_reduction_under_requirement::RULE,
     dead_band_over_requirement::RULE,
     integer_dead_band::RULE,
+    unsigned_difference_wraps::RULE,
+    integer_overflow::RULE,
+    coefficient_truncated::RULE,
+    dc_gain_not_one::RULE,
+    coefficient_out_of_range::RULE,
+    state_not_persistent::RULE,
+    float_state_absorbs_updates::RULE,
     rate_mismatch::RULE,
     rate_ambiguous::RULE,
     rate_unknown::RULE,
