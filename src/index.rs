@@ -325,17 +325,37 @@ impl Program {
     /// The definition of a global: the one with an initialiser if there is one (an
     /// `extern` declaration carries none).
     pub fn global(&self, name: &str) -> Option<&LocalDecl> {
+        self.global_seen_from(name, None)
+    }
+
+    /// The global a name means in `file`: one declared in that file first (a `static` one
+    /// is visible only there), else one that is not `static`; among several, the one with
+    /// an initialiser (an `extern` declaration carries none).
+    pub fn global_seen_from(&self, name: &str, file: Option<usize>) -> Option<&LocalDecl> {
         let refs = self.globals.get(name)?;
-        let decls: Vec<&GlobalDecl> = refs
+        let decls: Vec<(usize, &GlobalDecl)> = refs
             .iter()
-            .map(|&(fi, i)| &self.files[fi].globals[i])
-            .filter(|g| self.condition_holds(&g.condition))
+            .map(|&(fi, i)| (fi, &self.files[fi].globals[i]))
+            .filter(|(_, g)| self.condition_holds(&g.condition))
             .collect();
-        decls
-            .iter()
-            .find(|g| g.decl.init.is_some())
-            .or_else(|| decls.first())
-            .map(|g| &g.decl)
+        fn pick<'g>(candidates: Vec<&(usize, &'g GlobalDecl)>) -> Option<&'g LocalDecl> {
+            candidates
+                .iter()
+                .find(|(_, g)| g.decl.init.is_some())
+                .or_else(|| candidates.first())
+                .map(|(_, g)| &g.decl)
+        }
+        if let Some(f) = file {
+            let here: Vec<_> = decls.iter().filter(|(fi, _)| *fi == f).collect();
+            if !here.is_empty() {
+                return pick(here);
+            }
+        }
+        let visible: Vec<_> = decls.iter().filter(|(_, g)| !g.decl.is_static).collect();
+        if !visible.is_empty() {
+            return pick(visible);
+        }
+        pick(decls.iter().collect())
     }
 
     pub fn struct_def(&self, name: &str) -> Option<&StructDef> {

@@ -363,7 +363,10 @@ impl<'p> Evaluator<'p> {
             let e = e.clone();
             return self.guarded(format!("enum {name}"), |ev| ev.enum_value(file, &e));
         }
-        if let Some(global) = self.program.global(name) {
+        if let Some(global) = self
+            .program
+            .global_seen_from(name, scope.function.map(|f| f.file))
+        {
             let global = global.clone();
             return self.guarded(format!("global {name}"), |ev| ev.global_value(&global));
         }
@@ -909,7 +912,10 @@ pub fn place_type(program: &Program, function: Option<FuncRef>, expr: &Expr) -> 
             let local = function.and_then(|f| local_type(program.function(f), name));
             match local {
                 Some(t) => t,
-                None => program.global(name)?.ty.clone(),
+                None => program
+                    .global_seen_from(name, function.map(|f| f.file))?
+                    .ty
+                    .clone(),
             }
         }
         ExprKind::Field { base, arrow, field } => {
