@@ -150,7 +150,18 @@ impl Program {
         for (fi, file) in self.files.iter().enumerate() {
             for (i, f) in file.functions.iter().enumerate() {
                 let fref = FuncRef { file: fi, index: i };
+                // Writes to a function's own plain locals are never asked about (values
+                // come from globals, fields and statics), and most writes are to them.
+                let mut locals = HashSet::new();
+                collect_plain_locals(&f.body, &mut locals);
+                for p in &f.params {
+                    locals.insert(p.name.clone());
+                }
+                let is_local =
+                    |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(n));
                 visit_stmts(&f.body, &mut |e| match &e.kind {
+                    ExprKind::Assign { target, .. } if is_local(target) => {}
+                    ExprKind::IncDec { target, .. } if is_local(target) => {}
                     ExprKind::Assign { op, target, value } => writes.push(Write {
                         function: fref,
                         target: canonical_place(target),
@@ -506,6 +517,39 @@ impl Program {
 /// spacing and parentheses are not part of the key.
 pub fn canonical_place(expr: &Expr) -> String {
     expr.to_string()
+}
+
+/// The names of a body's non-static local variables.
+fn collect_plain_locals(stmts: &[Stmt], out: &mut HashSet<String>) {
+    for stmt in stmts {
+        match stmt {
+            Stmt::Decl(decls) => {
+                for d in decls.iter().filter(|d| !d.is_static) {
+                    out.insert(d.name.clone());
+                }
+            }
+            Stmt::Block(items) => collect_plain_locals(items, out),
+            Stmt::If {
+                then, otherwise, ..
+            } => {
+                collect_plain_locals(std::slice::from_ref(then), out);
+                if let Some(o) = otherwise {
+                    collect_plain_locals(std::slice::from_ref(o), out);
+                }
+            }
+            Stmt::Loop { init, body, .. } => {
+                collect_plain_locals(init, out);
+                collect_plain_locals(std::slice::from_ref(body), out);
+            }
+            Stmt::Switch { body, .. } => collect_plain_locals(std::slice::from_ref(body), out),
+            Stmt::Conditional(branches) => {
+                for (_, b) in branches {
+                    collect_plain_locals(b, out);
+                }
+            }
+            _ => {}
+        }
+    }
 }
 
 /// Visits every expression in a statement list, statements in order.

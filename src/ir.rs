@@ -266,14 +266,114 @@ impl Expr {
 
     /// True when `other` occurs in this expression (compared as C text, spans ignored).
     pub fn mentions(&self, other: &Expr) -> bool {
-        let wanted = other.to_string();
         let mut found = false;
         self.walk(&mut |e| {
-            if !found && same_place_kind(e, other) && e.to_string() == wanted {
+            if !found && same_place_kind(e, other) && e.same_as(other) {
                 found = true;
             }
         });
         found
+    }
+
+    /// Structural equality, spans ignored: the same C text without printing it (this is
+    /// on the recogniser's hot path).
+    pub fn same_as(&self, other: &Expr) -> bool {
+        use ExprKind::*;
+        match (&self.kind, &other.kind) {
+            (Ident(a), Ident(b)) | (Opaque(a), Opaque(b)) => a == b,
+            (
+                Int {
+                    value: a,
+                    unsigned: ua,
+                    long: la,
+                },
+                Int {
+                    value: b,
+                    unsigned: ub,
+                    long: lb,
+                },
+            ) => a == b && ua == ub && la == lb,
+            (
+                Float {
+                    value: a,
+                    single: sa,
+                },
+                Float {
+                    value: b,
+                    single: sb,
+                },
+            ) => a.to_bits() == b.to_bits() && sa == sb,
+            (
+                Field {
+                    base: a,
+                    arrow: x,
+                    field: f,
+                },
+                Field {
+                    base: b,
+                    arrow: y,
+                    field: g,
+                },
+            ) => x == y && f == g && a.same_as(b),
+            (Index { base: a, index: i }, Index { base: b, index: j }) => {
+                a.same_as(b) && i.same_as(j)
+            }
+            (Unary { op: o, arg: a }, Unary { op: p, arg: b }) => o == p && a.same_as(b),
+            (
+                Binary {
+                    op: o,
+                    lhs: a,
+                    rhs: c,
+                },
+                Binary {
+                    op: p,
+                    lhs: b,
+                    rhs: d,
+                },
+            ) => o == p && a.same_as(b) && c.same_as(d),
+            (Cast { ty: t, arg: a }, Cast { ty: u, arg: b }) => t == u && a.same_as(b),
+            (Call { callee: a, args: x }, Call { callee: b, args: y }) => {
+                a.same_as(b) && x.len() == y.len() && x.iter().zip(y).all(|(p, q)| p.same_as(q))
+            }
+            (
+                Assign {
+                    op: o,
+                    target: a,
+                    value: c,
+                },
+                Assign {
+                    op: p,
+                    target: b,
+                    value: d,
+                },
+            ) => o == p && a.same_as(b) && c.same_as(d),
+            (
+                IncDec {
+                    target: a,
+                    increment: x,
+                },
+                IncDec {
+                    target: b,
+                    increment: y,
+                },
+            ) => x == y && a.same_as(b),
+            (
+                Conditional {
+                    cond: a,
+                    then: b,
+                    otherwise: c,
+                },
+                Conditional {
+                    cond: x,
+                    then: y,
+                    otherwise: z,
+                },
+            ) => a.same_as(x) && b.same_as(y) && c.same_as(z),
+            (Comma(a), Comma(b)) => {
+                a.len() == b.len() && a.iter().zip(b).all(|(p, q)| p.same_as(q))
+            }
+            _ => false,
+        }
     }
 
     /// The identifier this lvalue is rooted at (`f` in `f->y`, `buf` in `buf[i]`).

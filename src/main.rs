@@ -583,7 +583,11 @@ fn check(
         }
     };
     emit(&text, output)?;
-    if result.incomplete {
+    let incomplete = result.incomplete;
+    // The process ends next: leave the program's tables to the operating system rather
+    // than freeing them one by one.
+    std::mem::forget(result);
+    if incomplete {
         eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
         return Ok(Status::ToolError);
     }

@@ -817,7 +817,21 @@ impl<'p> Walker<'p> {
                 // candidate only until its value is stored somewhere that persists.
                 let own = self.subst(&new_raw, Some(name));
                 let mut origin = self.env.get(name).and_then(|v| v.origin);
-                if own.mentions(&target) {
+                // `t += e`, `t -= e`, `t ^= e` with `e` free of `t` keep the weight one on
+                // `t` (or are not linear): never a smoother, and most code is full of them.
+                let plain_step = matches!(
+                    op,
+                    Some(
+                        BinaryOp::Add
+                            | BinaryOp::Sub
+                            | BinaryOp::BitXor
+                            | BinaryOp::BitOr
+                            | BinaryOp::BitAnd
+                            | BinaryOp::Shl
+                            | BinaryOp::Rem
+                    )
+                ) && !value.mentions(&target);
+                if !plain_step && own.mentions(&target) {
                     let locals = self.locals_snapshot();
                     self.candidates.push((
                         Candidate {
