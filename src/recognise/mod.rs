@@ -1582,7 +1582,8 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
     // Integer forms: run the update to measure the dead band.
     let dead_band = match (&state_type, alpha_value) {
         (Some(ty), Some(a)) if ty.is_integer() => {
-            compile_update(program, c, &aff, ty, scale.unwrap_or(1.0)).and_then(|u| u.dead_band(a))
+            compile_update(program, c, &aff, ty, scale.unwrap_or(1.0))
+                .and_then(|u| cached_dead_band(&u, a))
         }
         _ => None,
     };
@@ -1602,6 +1603,26 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
         state_type,
         storage,
     ))
+}
+
+/// The dead band of an update, remembered per compiled update: firmware repeats the same
+/// spelling (`>> 4` on an `int32_t`) many times, and the search is the costly part.
+fn cached_dead_band(update: &sim::Update, alpha: f64) -> Option<sim::DeadBand> {
+    use std::collections::HashMap;
+    use std::sync::{Mutex, OnceLock};
+    static CACHE: OnceLock<Mutex<HashMap<String, Option<sim::DeadBand>>>> = OnceLock::new();
+    let key = format!("{update:?}|{}", alpha.to_bits());
+    let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
+    if let Some(hit) = cache.lock().ok().and_then(|m| m.get(&key).copied()) {
+        return hit;
+    }
+    let band = update.dead_band(alpha);
+    if let Ok(mut m) = cache.lock() {
+        if m.len() < 100_000 {
+            m.insert(key, band);
+        }
+    }
+    band
 }
 
 #[allow(clippy::too_many_arguments)] // One constructor for the three forms; a struct of
