@@ -56,11 +56,17 @@ pub struct Program {
     macro_exprs: HashMap<(usize, usize), std::sync::OnceLock<Option<Expr>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
+    /// Globals by file and name: the common lookup, kept cheap when a name recurs in
+    /// many files.
+    globals_by_file: HashMap<(usize, String), Vec<usize>>,
     functions: HashMap<String, Vec<FuncRef>>,
     structs: HashMap<String, (usize, usize)>,
     typedefs: HashMap<String, CType>,
     writes: Vec<Write>,
     writes_by_target: HashMap<String, Vec<usize>>,
+    /// The same, per file: a `static` name is written only in its own file, and names such
+    /// as `state` recur in many files.
+    writes_by_file_target: HashMap<(usize, String), Vec<usize>>,
     calls: Vec<CallSite>,
     calls_by_callee: HashMap<String, Vec<usize>>,
     /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
@@ -78,11 +84,13 @@ impl Program {
             macro_exprs: HashMap::new(),
             enums: HashMap::new(),
             globals: HashMap::new(),
+            globals_by_file: HashMap::new(),
             functions: HashMap::new(),
             structs: HashMap::new(),
             typedefs: HashMap::new(),
             writes: Vec::new(),
             writes_by_target: HashMap::new(),
+            writes_by_file_target: HashMap::new(),
             calls: Vec::new(),
             calls_by_callee: HashMap::new(),
             calls_by_address_arg: HashMap::new(),
@@ -104,6 +112,11 @@ impl Program {
                     .entry(g.decl.name.clone())
                     .or_default()
                     .push((fi, i));
+                program
+                    .globals_by_file
+                    .entry((fi, g.decl.name.clone()))
+                    .or_default()
+                    .push(i);
             }
             for (i, s) in file.structs.iter().enumerate() {
                 program.structs.entry(s.name.clone()).or_insert((fi, i));
@@ -204,6 +217,10 @@ impl Program {
         for (i, w) in writes.iter().enumerate() {
             self.writes_by_target
                 .entry(w.target.clone())
+                .or_default()
+                .push(i);
+            self.writes_by_file_target
+                .entry((w.function.file, w.target.clone()))
                 .or_default()
                 .push(i);
         }
@@ -343,6 +360,22 @@ impl Program {
     /// is visible only there), else one that is not `static`; among several, the one with
     /// an initialiser (an `extern` declaration carries none).
     pub fn global_seen_from(&self, name: &str, file: Option<usize>) -> Option<&LocalDecl> {
+        if let Some(f) = file {
+            if let Some(local) = self.globals_by_file.get(&(f, name.to_string())) {
+                let decls: Vec<&GlobalDecl> = local
+                    .iter()
+                    .map(|&i| &self.files[f].globals[i])
+                    .filter(|g| self.condition_holds(&g.condition))
+                    .collect();
+                if let Some(g) = decls
+                    .iter()
+                    .find(|g| g.decl.init.is_some())
+                    .or(decls.first())
+                {
+                    return Some(&g.decl);
+                }
+            }
+        }
         let refs = self.globals.get(name)?;
         let decls: Vec<(usize, &GlobalDecl)> = refs
             .iter()
@@ -410,6 +443,35 @@ impl Program {
             .map(|&i| &self.writes[i])
     }
 
+    /// Writes to a place made in one file.
+    pub fn writes_in_file(&self, place: &str, file: usize) -> impl Iterator<Item = &Write> {
+        self.writes_by_file_target
+            .get(&(file, place.to_string()))
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.writes[i])
+    }
+
+    /// Writes that can reach a place read in `file`: that file's own when it has any (a
+    /// static or a file's own global), else every file's.
+    pub fn writes_seen_from(&self, place: &str, file: usize) -> Vec<&Write> {
+        let here: Vec<&Write> = self.writes_in_file(place, file).collect();
+        if !here.is_empty() {
+            return here;
+        }
+        let root = place
+            .split(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+            .next()
+            .unwrap_or(place);
+        if self
+            .global_seen_from(root, Some(file))
+            .is_some_and(|g| g.is_static)
+        {
+            return Vec::new();
+        }
+        self.writes_to(place).collect()
+    }
+
     pub fn calls_to(&self, callee: &str) -> impl Iterator<Item = &CallSite> {
         self.calls_by_callee
             .get(callee)
@@ -432,8 +494,8 @@ impl Program {
     }
 
     /// Whether a place is a counter: stepped by a constant (`n++`, `n += 1`, `n = n + 1`).
-    pub fn is_counter(&self, place: &str) -> bool {
-        self.writes_to(place).any(|w| {
+    pub fn is_counter(&self, place: &str, file: usize) -> bool {
+        self.writes_seen_from(place, file).into_iter().any(|w| {
             let constant_step = |e: &Expr| matches!(e.kind, ExprKind::Int { .. });
             match (&w.op, &w.value.kind) {
                 (Some(BinaryOp::Add | BinaryOp::Sub), _) => constant_step(&w.value),

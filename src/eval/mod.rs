@@ -296,7 +296,10 @@ impl<'p> Evaluator<'p> {
             }
             if let Some(local) = find_local(function, name) {
                 let fname = function.name.clone();
-                let never_written = !self.program.writes_to(name).any(|w| w.function == f);
+                let never_written = !self
+                    .program
+                    .writes_in_file(name, f.file)
+                    .any(|w| w.function == f);
                 return match &local.init {
                     Some(Initializer::Expr(init))
                         if local.is_const || (local.is_static && never_written) =>
@@ -409,7 +412,12 @@ impl<'p> Evaluator<'p> {
 
     fn global_value(&mut self, decl: &LocalDecl) -> Result<Num, Unknown> {
         let ty = self.program.resolve_type(&decl.ty);
-        let writes: Vec<_> = self.program.writes_to(&decl.name).cloned().collect();
+        let writes: Vec<_> = self
+            .program
+            .writes_seen_from(&decl.name, decl.span.file.0 as usize)
+            .into_iter()
+            .cloned()
+            .collect();
         if !decl.is_const && !writes.is_empty() {
             return self.value_from_writes(&decl.name, &writes, &ty);
         }
@@ -502,14 +510,28 @@ impl<'p> Evaluator<'p> {
             }
         }
         let key = format!("place {text}");
-        self.guarded(key, |ev| ev.place_from_writes(expr, &text))
+        let file = scope.function.map(|f| f.file);
+        self.guarded(key, |ev| ev.place_from_writes(expr, &text, file))
     }
 
-    fn place_from_writes(&mut self, expr: &Expr, text: &str) -> Result<Num, Unknown> {
+    fn place_from_writes(
+        &mut self,
+        expr: &Expr,
+        text: &str,
+        file: Option<usize>,
+    ) -> Result<Num, Unknown> {
         let ty = self.place_type(expr).unwrap_or(CType::Double);
         let mut values: Vec<Num> = Vec::new();
         let mut unknown: Option<Unknown> = None;
-        let direct: Vec<_> = self.program.writes_to(text).cloned().collect();
+        let direct: Vec<_> = match file {
+            Some(f) => self
+                .program
+                .writes_seen_from(text, f)
+                .into_iter()
+                .cloned()
+                .collect(),
+            None => self.program.writes_to(text).cloned().collect(),
+        };
         for w in &direct {
             if w.op.is_some() {
                 return Err(Unknown::runtime(
@@ -542,7 +564,7 @@ impl<'p> Evaluator<'p> {
                 let inner_place = format!("{}->{field}", param.name);
                 let writes: Vec<_> = self
                     .program
-                    .writes_to(&inner_place)
+                    .writes_in_file(&inner_place, callee.file)
                     .filter(|w| w.function == callee)
                     .cloned()
                     .collect();

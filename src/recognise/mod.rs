@@ -1512,7 +1512,7 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
         };
         leaves.iter().any(|&l| {
             matches!(&aff.atoms[l as usize].1, AtomKind::Leaf(e) if e.is_place())
-                && program.is_counter(&aff.atoms[l as usize].0)
+                && program.is_counter(&aff.atoms[l as usize].0, c.function.file)
         })
     });
     if counter_weight {
@@ -1939,7 +1939,7 @@ fn moving_average(
 fn index_wrap(program: &Program, c: &Candidate, index: &Expr) -> Option<f64> {
     let text = index.to_string();
     let scope = c.scope();
-    for w in program.writes_to(&text) {
+    for w in program.writes_seen_from(&text, c.function.file) {
         if let ExprKind::Binary {
             op: BinaryOp::Rem,
             rhs,
