@@ -13,6 +13,9 @@ use crate::spec::{Input, Matcher, Requirements, Spec};
 pub struct CheckResult {
     pub ids: Vec<String>,
     pub findings: Vec<Finding>,
+    /// Each smoother's requirements as the rules held it to them: its spec entries' merged
+    /// over the defaults (for documents that draw them).
+    pub requirements: Vec<Requirements>,
 }
 
 fn matches(
@@ -177,11 +180,15 @@ pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
         spec,
         ids: &ids,
         matched,
-        requirements,
+        requirements: requirements.clone(),
         inputs,
         rates,
         tags,
     };
     let findings = rules::run(&ctx);
-    CheckResult { ids, findings }
+    CheckResult {
+        ids,
+        findings,
+        requirements,
+    }
 }

@@ -117,6 +117,18 @@ enum Command {
         #[arg(long, value_name = "FILE")]
         baseline: Option<PathBuf>,
     },
+    /// Write the smoother document: every smoother with its figures, source, derivation,
+    /// verdict and plots, as one self-contained HTML page or as Markdown.
+    Report {
+        #[command(flatten)]
+        scan: ScanArgs,
+        /// The spec file (default: tauscan.yaml in the scan root or the nearest folder above).
+        #[arg(long, value_name = "FILE")]
+        spec: Option<PathBuf>,
+        /// The document to write, whole or not at all: FILE.html (with plots) or FILE.md.
+        #[arg(short = 'o', long, visible_alias = "output", value_name = "FILE")]
+        out: PathBuf,
+    },
     /// Record today's findings in a baseline file, for `check --baseline`.
     Baseline {
         #[command(flatten)]
@@ -412,6 +424,11 @@ fn run(cli: Cli) -> Result<Status> {
             );
             Ok(Status::Clean)
         }
+        Command::Report {
+            scan: args,
+            spec,
+            out,
+        } => report(&args, spec, &out),
         Command::Explain { rule, list } => explain(rule.as_deref(), list),
         Command::Diff {
             revisions,
@@ -600,6 +617,113 @@ fn check(
     } else {
         Status::Clean
     })
+}
+
+/// The git revision of `dir` for a document's header: the short commit, marked when the
+/// work tree under `dir` differs from it; None outside git or without git.
+fn revision_of(dir: &std::path::Path) -> Option<String> {
+    let head = git(dir, &["rev-parse", "--short", "HEAD"]).ok()?;
+    if !head.status.success() {
+        return None;
+    }
+    let commit = String::from_utf8_lossy(&head.stdout).trim().to_string();
+    if commit.is_empty() {
+        return None;
+    }
+    let changed = git(dir, &["status", "--porcelain", "--", "."])
+        .ok()
+        .filter(|o| o.status.success())
+        .is_some_and(|o| !o.stdout.is_empty());
+    Some(if changed {
+        format!("{commit} (the work tree differs from it)")
+    } else {
+        commit
+    })
+}
+
+/// A path as a document shows it: relative to the current folder when it is under it (the
+/// same on every machine), else as found.
+fn shown_path(path: &std::path::Path) -> String {
+    let relative = std::env::current_dir()
+        .ok()
+        .and_then(|here| here.canonicalize().ok())
+        .and_then(|here| {
+            let full = path.canonicalize().ok()?;
+            full.strip_prefix(&here)
+                .ok()
+                .map(std::path::Path::to_path_buf)
+        });
+    relative
+        .as_deref()
+        .unwrap_or(path)
+        .to_string_lossy()
+        .replace('\\', "/")
+}
+
+/// Now, or `SOURCE_DATE_EPOCH` when set (for documents that must come out the same).
+fn document_date() -> String {
+    let from_env = std::env::var("SOURCE_DATE_EPOCH")
+        .ok()
+        .and_then(|v| v.trim().parse::<i64>().ok());
+    let seconds = from_env.unwrap_or_else(|| {
+        std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map(|d| d.as_secs() as i64)
+            .unwrap_or(0)
+    });
+    report::document::utc_timestamp(seconds)
+}
+
+fn report(args: &ScanArgs, spec_path: Option<PathBuf>, out: &std::path::Path) -> Result<Status> {
+    let extension = out
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase())
+        .unwrap_or_default();
+    let html = match extension.as_str() {
+        "html" | "htm" => true,
+        "md" | "markdown" => false,
+        _ => bail!(
+            "--out {}: name the document FILE.html (with plots) or FILE.md",
+            out.display()
+        ),
+    };
+    let loaded = load_spec(spec_path, &args.paths)?;
+    let spec = loaded
+        .as_ref()
+        .map(|(_, _, s)| s.clone())
+        .unwrap_or_default();
+    let options = scan_options_with(args, &spec)?;
+    let mut result = scan::run(&options);
+    print_notes(&result);
+    let checked = tauscan::check::run(&mut result, &spec);
+    let root = result.root.clone();
+    let paths = result.program.paths.clone();
+    let read = move |f: tauscan::ir::FileId| -> Option<Vec<u8>> {
+        let rel = paths.get(f.0 as usize)?;
+        std::fs::read(root.join(rel)).ok()
+    };
+    let header = report::document::Header {
+        root: result.root.to_string_lossy().replace('\\', "/"),
+        revision: revision_of(&result.root),
+        spec: loaded.as_ref().map(|(p, _, _)| shown_path(p)),
+        date_utc: document_date(),
+        version: env!("CARGO_PKG_VERSION").to_string(),
+    };
+    let document = report::document::build(&result, &checked, header, &read);
+    let text = if html {
+        report::html::render(&document)
+    } else {
+        report::document_md::render(&document)
+    };
+    report::write_atomically(out, text.as_bytes())
+        .with_context(|| format!("cannot write {}", out.display()))?;
+    if result.incomplete {
+        eprintln!(
+            "tauscan: error: the scan is incomplete (see the notes above); the document says so"
+        );
+        return Ok(Status::ToolError);
+    }
+    Ok(Status::Clean)
 }
 
 fn git(dir: &std::path::Path, args: &[&str]) -> Result<std::process::Output> {

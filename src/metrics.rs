@@ -345,6 +345,51 @@ pub fn cascade_samples_to_fraction(stages: &[Stage], q: f64) -> Option<Samples> 
     }
 }
 
+/// The cascade's output after each of the first `samples` updates fed with a unit step from
+/// rest: index 0 holds the output after the first update.
+///
+/// A single stage uses its closed form and two or more are simulated exactly as
+/// [`cascade_samples_to_fraction`] simulates them, so a curve drawn from this response crosses
+/// each fraction at the sample the figures give. `None` for a zero-length moving average, for
+/// moving averages whose combined response is longer than the simulation holds, or for more
+/// samples than a simulation computes (about sixteen million).
+pub fn cascade_step_response(stages: &[Stage], samples: usize) -> Option<Vec<f64>> {
+    if samples > RESPONSE_SAMPLE_CAP {
+        return None;
+    }
+    let counts = 1..=samples as u64;
+    match stages {
+        [] => Some(vec![1.0; samples]),
+        [Stage::Ema(alpha)] => Some(counts.map(|n| ema_step(*alpha, n)).collect()),
+        [Stage::MovingAverage(0)] => None,
+        [Stage::MovingAverage(length)] => {
+            let length = u64::from(*length);
+            Some(
+                counts
+                    .map(|n| n.min(length) as f64 / length as f64)
+                    .collect(),
+            )
+        }
+        _ => {
+            let (head, alphas) = split_cascade(stages)?;
+            let mut states = vec![0.0; alphas.len()];
+            let mut head_step = 0.0;
+            let mut response = Vec::with_capacity(samples);
+            for index in 0..samples {
+                let input = match head.get(index) {
+                    Some(sample) => {
+                        head_step += sample;
+                        head_step
+                    }
+                    None => 1.0,
+                };
+                response.push(run_emas(&alphas, &mut states, input));
+            }
+            Some(response)
+        }
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // All figures of one smoother at once.
 // ---------------------------------------------------------------------------------------------
@@ -944,6 +989,44 @@ mod tests {
         assert_eq!(
             cascade_samples_to_fraction(&passthrough, 0.99),
             Some(Samples(1.0))
+        );
+    }
+
+    #[test]
+    fn step_response_crosses_each_fraction_at_the_counted_sample() {
+        // Source: running y += alpha (u - y) and the running sum of a ring buffer by hand for
+        // the single stages; for the cascades, the counts of `cascade_samples_to_fraction`,
+        // which the simulation shares (a curve drawn from one must agree with the other).
+        let cascades: [&[Stage]; 4] = [
+            &[Stage::Ema(alpha(0.2))],
+            &[Stage::MovingAverage(8)],
+            &[Stage::Ema(alpha(0.2)), Stage::Ema(alpha(0.2))],
+            &[Stage::MovingAverage(4), Stage::Ema(alpha(0.1))],
+        ];
+        for stages in cascades {
+            let response = cascade_step_response(stages, 200).unwrap();
+            assert_eq!(response.len(), 200);
+            for q in [FRACTION_63, FRACTION_90, FRACTION_95] {
+                let first = response.iter().position(|y| *y >= q).unwrap() + 1;
+                let counted = cascade_samples_to_fraction(stages, q).unwrap().0;
+                assert_eq!(first as f64, counted, "{stages:?} q {q}");
+            }
+        }
+        let mut y: f64 = 0.0;
+        let ema = cascade_step_response(&[Stage::Ema(alpha(0.2))], 5).unwrap();
+        for value in ema {
+            y += 0.2 * (1.0 - y);
+            assert!(close(value, y, 1e-12));
+        }
+        assert_eq!(
+            cascade_step_response(&[Stage::MovingAverage(4)], 6).unwrap(),
+            vec![0.25, 0.5, 0.75, 1.0, 1.0, 1.0]
+        );
+        assert_eq!(cascade_step_response(&[Stage::MovingAverage(0)], 4), None);
+        assert_eq!(cascade_step_response(&[], 2).unwrap(), vec![1.0, 1.0]);
+        assert_eq!(
+            cascade_step_response(&[Stage::Ema(alpha(0.5))], RESPONSE_SAMPLE_CAP + 1),
+            None
         );
     }
 

@@ -1,4 +1,5 @@
-//! Rendering: the scan's smoothers and notes as a terminal table or the versioned JSON.
+//! Rendering: the scan's smoothers and notes as a terminal table, the versioned JSON, or the
+//! smoother document (`document`, drawn by `html` with `plot`'s SVG, or by `document_md`).
 //!
 //! Only this module knows serde and output formats. Every string that comes from the
 //! scanned files passes `neutral` before it reaches a terminal, so control characters and
@@ -8,8 +9,12 @@
 pub mod baseline;
 pub mod diagnostics;
 pub mod diff;
+pub mod document;
+pub mod document_md;
+pub mod html;
 pub mod json;
 pub mod markdown;
+pub mod plot;
 pub mod sarif;
 pub mod starter_spec;
 pub mod table;
