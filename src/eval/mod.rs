@@ -203,6 +203,9 @@ impl<'p> Evaluator<'p> {
                 let a = self.eval(arg, scope)?;
                 let out = num::unary(*op, a, target)?;
                 self.note(out.signed_overflow, out.unsigned_wrap);
+                if out.signed_overflow {
+                    return Err(overflowed(expr));
+                }
                 Ok(out.value)
             }
             ExprKind::Binary { op, lhs, rhs } => {
@@ -223,6 +226,9 @@ impl<'p> Evaluator<'p> {
                 };
                 let out = num::binary(*op, a, b, target)?;
                 self.note(out.signed_overflow, out.unsigned_wrap);
+                if out.signed_overflow {
+                    return Err(overflowed(expr));
+                }
                 Ok(out.value)
             }
             ExprKind::Cast { ty, arg } => {
@@ -924,6 +930,46 @@ pub fn substitute_macro(body: &str, params: &[String], args: &[Expr]) -> String 
             .and_then(|i| args.get(i))
             .map(|a| format!("({a})"))
     })
+}
+
+/// A signed operation whose result does not fit its type has no value in C (C11 6.5p5),
+/// so a constant computed that way is not known, whatever a wrap would give.
+fn overflowed(expr: &Expr) -> Unknown {
+    Unknown::new(format!(
+        "`{expr}` overflows its signed type (undefined, C11 6.5p5)"
+    ))
+}
+
+/// The width in bits of an integer type on the target, or `None` for a type that is not
+/// an integer (or not known).
+pub fn integer_bits(ty: &CType, target: Target) -> Option<u8> {
+    match ty {
+        CType::FixedInt(t) => Some(t.bits),
+        CType::PlainInt { .. } => Some(target.int_bits),
+        CType::Bool => Some(1),
+        _ => None,
+    }
+}
+
+/// The width of `expr`'s type after the integer promotions (C11 6.3.1.1p2, 6.3.1.8),
+/// estimated from the places and casts it is made of: the widest of their integer types,
+/// and at least `int`. Used to tell whether a shift count is defined (C11 6.5.7p3).
+pub fn promoted_bits(program: &Program, function: Option<FuncRef>, expr: &Expr) -> u8 {
+    let target = program.options.target;
+    let mut bits = target.int_bits;
+    expr.walk(&mut |e| {
+        let ty = match &e.kind {
+            ExprKind::Cast { ty, .. } => Some(ty.clone()),
+            ExprKind::Ident(_) | ExprKind::Field { .. } | ExprKind::Index { .. } => {
+                place_type(program, function, e)
+            }
+            _ => None,
+        };
+        if let Some(b) = ty.as_ref().and_then(|t| integer_bits(t, target)) {
+            bits = bits.max(b);
+        }
+    });
+    bits
 }
 
 /// The declared type of a place expression in a function (locals, parameters, globals,

@@ -1059,8 +1059,8 @@ struct Linearizer<'a> {
     atoms: Vec<(String, AtomKind)>,
     state: String,
     _marker: std::marker::PhantomData<&'a ()>,
-    /// Shift amounts and other integers that must be known to read the form.
-    shift_eval: &'a dyn Fn(&Expr) -> Option<f64>,
+    /// The count of a shift (`lhs`, count), see `Shift`.
+    shift_eval: &'a dyn Fn(&Expr, &Expr) -> Shift,
 }
 
 #[derive(Debug)]
@@ -1147,10 +1147,30 @@ impl<'a> Linearizer<'a> {
                         let num = self.lin(lhs)?;
                         let den = self.lin(rhs)?;
                         if let Some(c) = den.as_constant() {
-                            if c == 0.0 {
-                                return Err(NotAffine);
+                            if c != 0.0 {
+                                return Ok(num.scale(1.0 / c));
                             }
-                            return Ok(num.scale(1.0 / c));
+                            // Division by a constant zero: an opaque factor whose
+                            // evaluation fails, so the smoother is listed with no alpha.
+                            let one = Expr::new(
+                                ExprKind::Float {
+                                    value: 1.0,
+                                    single: false,
+                                },
+                                rhs.span,
+                            );
+                            let gain = Expr::new(
+                                ExprKind::Binary {
+                                    op: Div,
+                                    lhs: Box::new(one),
+                                    rhs: rhs.clone(),
+                                },
+                                e.span,
+                            );
+                            let id = self
+                                .atom(gain.to_string(), AtomKind::Leaf(gain))
+                                .ok_or(NotAffine)?;
+                            return self.mul(&num, &Poly::atom(id));
                         }
                         if self.mentions_state(rhs) {
                             return Err(NotAffine);
@@ -1160,12 +1180,20 @@ impl<'a> Linearizer<'a> {
                         self.mul(&num, &Poly::atom(inv))
                     }
                     Shr | Shl => {
-                        let amount = (self.shift_eval)(rhs).ok_or(NotAffine)?;
-                        if !(0.0..64.0).contains(&amount) || amount.fract() != 0.0 {
-                            return Err(NotAffine);
-                        }
-                        let factor = 2f64.powi(amount as i32);
                         let value = self.lin(lhs)?;
+                        let amount = match (self.shift_eval)(lhs, rhs) {
+                            Shift::Count(amount) => amount,
+                            Shift::NotKnown { bits } => {
+                                // The gain is `2^count` (or its inverse) as one opaque
+                                // factor, evaluated like any other leaf: unknown while the
+                                // count changes at run time or is not defined in C.
+                                let gain = shift_gain(*op, bits, rhs, e.span);
+                                let key = gain.to_string();
+                                let id = self.atom(key, AtomKind::Leaf(gain)).ok_or(NotAffine)?;
+                                return self.mul(&value, &Poly::atom(id));
+                            }
+                        };
+                        let factor = 2f64.powi(amount as i32);
                         Ok(if *op == Shr {
                             value.scale(1.0 / factor)
                         } else {
@@ -1249,10 +1277,79 @@ struct Affine {
     structural: bool,
 }
 
+/// What the linearizer may take a shift's count for.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Shift {
+    /// A constant count that C defines for the left operand (C11 6.5.7p3: a whole number,
+    /// not negative, less than the promoted left operand's width): the shift is an exact
+    /// power of two.
+    Count(f64),
+    /// A count that changes at run time, or a constant one that C leaves undefined: the
+    /// shift's gain stays an opaque factor. `bits` is the promoted left operand's width.
+    NotKnown { bits: u8 },
+}
+
+fn defined_shift(program: &Program, function: FuncRef, lhs: &Expr, count: Option<f64>) -> Shift {
+    let bits = eval::promoted_bits(program, Some(function), lhs);
+    match count {
+        Some(c) if c.fract() == 0.0 && (0.0..f64::from(bits)).contains(&c) => Shift::Count(c),
+        _ => Shift::NotKnown { bits },
+    }
+}
+
+/// The gain of `x >> count` (`1.0 / ((uintN_t)1 << count)`) or of `x << count`
+/// (`(uintN_t)1 << count`), with N the promoted left operand's width, so that evaluating
+/// it fails exactly where the shift itself is undefined (C11 6.5.7p3).
+fn shift_gain(op: BinaryOp, bits: u8, count: &Expr, span: Span) -> Expr {
+    let one = Expr::new(
+        ExprKind::Int {
+            value: 1,
+            unsigned: true,
+            long: false,
+        },
+        span,
+    );
+    let unit = Expr::new(
+        ExprKind::Cast {
+            ty: CType::FixedInt(IntType {
+                bits,
+                signed: false,
+            }),
+            arg: Box::new(one),
+        },
+        span,
+    );
+    let power = Expr::new(
+        ExprKind::Binary {
+            op: BinaryOp::Shl,
+            lhs: Box::new(unit),
+            rhs: Box::new(count.clone()),
+        },
+        span,
+    );
+    if op == BinaryOp::Shl {
+        return power;
+    }
+    Expr::new(
+        ExprKind::Binary {
+            op: BinaryOp::Div,
+            lhs: Box::new(Expr::new(
+                ExprKind::Float {
+                    value: 1.0,
+                    single: false,
+                },
+                span,
+            )),
+            rhs: Box::new(power),
+        },
+        span,
+    )
+}
+
 fn affine(
     update: &Expr,
     state: &Expr,
-    shift_eval: &dyn Fn(&Expr) -> Option<f64>,
+    shift_eval: &dyn Fn(&Expr, &Expr) -> Shift,
 ) -> Option<Affine> {
     let mut lin = Linearizer {
         atoms: Vec::new(),
@@ -1400,11 +1497,9 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
     if let Some(bound) = &c.resummed_bound {
         return resummed(program, c, bound, options);
     }
-    let shift_eval = |e: &Expr| -> Option<f64> {
-        Evaluator::new(program)
-            .eval(e, &scope)
-            .ok()
-            .map(|v| v.as_f64())
+    let shift_eval = |lhs: &Expr, count: &Expr| -> Shift {
+        let count = Evaluator::new(program).eval(count, &scope).ok();
+        defined_shift(program, c.function, lhs, count.map(|v| v.as_f64()))
     };
     let aff = affine(&c.new_value, &c.state, &shift_eval)?;
 
@@ -1460,7 +1555,7 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
                 .all(|x| leaf_values[*x as usize].is_some()),
         }
     };
-    let all_known = weight_atoms.iter().all(|a| known(*a));
+    let mut all_known = weight_atoms.iter().all(|a| known(*a));
     let values = atom_values(
         &aff.atoms,
         &leaf_values
@@ -1468,6 +1563,20 @@ fn analyse(program: &Program, c: &Candidate, options: &RecogniseOptions) -> Opti
             .map(|v| v.unwrap_or(f64::NAN))
             .collect::<Vec<_>>(),
     );
+    // A denominator that is zero where the update stands has no quotient in C (C11
+    // 6.5.5p5): the coefficient is unknown, not infinite.
+    if all_known {
+        for a in &weight_atoms {
+            if let (key, AtomKind::Inverse(_)) = &aff.atoms[*a as usize] {
+                if !values[*a as usize].is_finite() {
+                    all_known = false;
+                    unknown_reasons.push(eval::Unknown::new(format!(
+                        "`{key}` divides by zero (undefined, C11 6.5.5p5)"
+                    )));
+                }
+            }
+        }
+    }
     let alpha_value = all_known.then(|| aff.alpha.evaluate(&|a| values[a as usize]));
     let input_weight: Option<f64> = all_known.then(|| {
         aff.inputs
@@ -1709,10 +1818,11 @@ fn variants_of(
             {
                 continue;
             }
-            let shift_eval = |e: &Expr| -> Option<f64> {
+            let shift_eval = |lhs: &Expr, count: &Expr| -> Shift {
                 let mut ev = Evaluator::new(program);
                 ev.macro_override = Some(def.clone());
-                ev.eval(e, &scope).ok().map(|v| v.as_f64())
+                let count = ev.eval(count, &scope).ok();
+                defined_shift(program, c.function, lhs, count.map(|v| v.as_f64()))
             };
             let value = affine(&c.new_value, &c.state, &shift_eval).and_then(|aff| {
                 let mut ev = Evaluator::new(program);
@@ -2159,6 +2269,38 @@ mod tests {
         ] {
             let src = format!("static float y, i, n;\nvoid f(float e) {{ {body} }}\n");
             assert!(find(&src).is_empty(), "{body} was reported");
+        }
+    }
+
+    #[test]
+    fn shifts_by_counts_c_does_not_fix_are_listed_with_no_alpha() {
+        // A count that changes at run time, or one past the promoted operand's width
+        // (C11 6.5.7p3: undefined), leaves the smoother listed but its alpha unknown.
+        for (state_type, body) in [
+            ("int", "y += (u - y) >> k;"),
+            ("int", "y += (u - y) >> 32;"),
+            ("int", "y += (u - y) >> -1;"),
+            ("int", "y += (u - y) / 0;"),
+        ] {
+            let src = format!("static {state_type} y; extern int k;\nvoid f(int u) {{ {body} }}\n");
+            let found = find(&src);
+            assert_eq!(found.len(), 1, "{body} was not listed");
+            assert!(
+                !matches!(found[0].alpha, Coefficient::Known(_)),
+                "{body}: alpha {:?}",
+                found[0].alpha
+            );
+        }
+        // The same count is defined for a `long long` state (at least 64 bits, C11
+        // 5.2.4.2.1; 64 in this project's model), and a 31-bit shift of an int is too.
+        for (state_type, body, alpha) in [
+            ("long long", "y += (u - y) >> 32;", 2f64.powi(-32)),
+            ("int", "y += (u - y) >> 31;", 2f64.powi(-31)),
+        ] {
+            let src = format!("static {state_type} y;\nvoid f(int u) {{ {body} }}\n");
+            let found = find(&src);
+            assert_eq!(found.len(), 1, "{body} was not listed");
+            assert_eq!(found[0].alpha, Coefficient::Known(alpha), "{body}");
         }
     }
 }

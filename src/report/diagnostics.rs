@@ -81,14 +81,14 @@ pub fn render(scan: &Scan, result: &CheckResult, sources: &Sources, color: bool)
             return Some(*id);
         }
         let text = safe_source(&(sources.read)(f)?);
-        let id = files.add(scan.program.path(f).to_string(), text);
+        let id = files.add(crate::report::neutral(scan.program.path(f)), text);
         ids.insert(f, id);
         Some(id)
     };
     let spec_id = sources
         .spec
         .as_ref()
-        .map(|(name, text)| files.add(name.clone(), safe_source(text.as_bytes())));
+        .map(|(name, text)| files.add(crate::report::neutral(name), safe_source(text.as_bytes())));
     let spec_text = sources
         .spec
         .as_ref()

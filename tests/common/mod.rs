@@ -1,0 +1,276 @@
+//! What the end-to-end suites share: running the binary with a time limit and reading
+//! what it printed (exit status, notes, JSON), and building small trees in temporary
+//! folders. Each suite uses part of it, so unused items are allowed here.
+#![allow(
+    dead_code,
+    clippy::unwrap_used,
+    clippy::expect_used,
+    reason = "shared by several test crates, each using part; a test that cannot build its fixture should stop at once"
+)]
+
+use serde_json::Value;
+use std::io::Read;
+use std::path::Path;
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+/// A smoother tauscan reports as function `vent_tick`, state `y` (alpha 1/8).
+pub const GOOD_SMOOTHER: &str = "static int y; void vent_tick(int u) { y += (u - y) >> 3; }\n";
+
+/// Time after which a small scan is taken to hang. Generous, because the suite runs its
+/// tests in parallel on small machines; a scan of these trees takes well under a second.
+pub const LIMIT: Duration = Duration::from_secs(120);
+
+/// Time after which a scan that meets a FIFO is taken to hang (it would block forever
+/// opening a FIFO that has no writer).
+pub const FIFO_LIMIT: Duration = Duration::from_secs(20);
+
+/// What one run of the binary did.
+pub struct Run {
+    /// The exit code; `None` when the process was killed by a signal (a stack overflow
+    /// aborts) or by the time limit.
+    pub code: Option<i32>,
+    pub stdout: Vec<u8>,
+    pub stderr_bytes: Vec<u8>,
+    pub stderr: String,
+    pub timed_out: bool,
+    /// The command line, for failure messages.
+    pub label: String,
+}
+
+/// Runs `tauscan` with `args` in `dir`, killing it after `limit`.
+pub fn tauscan_in(dir: &Path, args: &[&str], limit: Duration) -> Run {
+    tauscan_command(
+        Command::new(env!("CARGO_BIN_EXE_tauscan")),
+        dir,
+        args,
+        limit,
+    )
+}
+
+/// Runs a prepared command (the binary, possibly behind a privilege drop) with `args`.
+pub fn tauscan_command(mut command: Command, dir: &Path, args: &[&str], limit: Duration) -> Run {
+    let label = format!("tauscan {}", args.join(" "));
+    let mut child = command
+        .args(args)
+        .current_dir(dir)
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("tauscan could not be started");
+    // The pipes are drained on their own threads so that a large output cannot block the
+    // child while this thread waits for it.
+    let mut out_pipe = child.stdout.take().unwrap();
+    let mut err_pipe = child.stderr.take().unwrap();
+    let out_reader = std::thread::spawn(move || {
+        let mut buffer = Vec::new();
+        let _ = out_pipe.read_to_end(&mut buffer);
+        buffer
+    });
+    let err_reader = std::thread::spawn(move || {
+        let mut buffer = Vec::new();
+        let _ = err_pipe.read_to_end(&mut buffer);
+        buffer
+    });
+    let start = Instant::now();
+    let mut timed_out = false;
+    let status = loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            break status;
+        }
+        if start.elapsed() > limit {
+            timed_out = true;
+            let _ = child.kill();
+            break child.wait().unwrap();
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    let stdout = out_reader.join().unwrap();
+    let stderr_bytes = err_reader.join().unwrap();
+    Run {
+        code: if timed_out { None } else { status.code() },
+        stderr: String::from_utf8_lossy(&stderr_bytes).into_owned(),
+        stdout,
+        stderr_bytes,
+        timed_out,
+        label,
+    }
+}
+
+/// Text safe to print in a failure message: control characters other than newlines are
+/// shown escaped, so that a failing test cannot drive the terminal either.
+pub fn shown(text: &str) -> String {
+    text.chars()
+        .map(|c| {
+            if c.is_control() && c != '\n' {
+                c.escape_default().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+impl Run {
+    pub fn context(&self) -> String {
+        format!(
+            "{}\nexit code: {:?} (timed out: {})\nstderr:\n{}",
+            self.label,
+            self.code,
+            self.timed_out,
+            shown(&self.stderr)
+        )
+    }
+
+    /// The run ended by itself, within the limit, without a panic or an abort.
+    pub fn assert_finished(&self) {
+        assert!(
+            !self.timed_out,
+            "tauscan hung and was killed\n{}",
+            self.context()
+        );
+        assert!(
+            !self.stderr.contains("panicked") && !self.stderr.contains("overflowed its stack"),
+            "tauscan crashed\n{}",
+            self.context()
+        );
+        assert!(
+            self.code.is_some(),
+            "tauscan was killed by a signal (an abort, e.g. a stack overflow)\n{}",
+            self.context()
+        );
+    }
+
+    pub fn assert_exit(&self, expected: i32, why: &str) {
+        self.assert_finished();
+        assert_eq!(
+            self.code,
+            Some(expected),
+            "expected exit status {expected}: {why}\n{}",
+            self.context()
+        );
+    }
+
+    /// The note lines, each without its `tauscan: note: ` prefix.
+    pub fn notes(&self) -> Vec<&str> {
+        self.stderr
+            .lines()
+            .filter_map(|line| line.strip_prefix("tauscan: note: "))
+            .collect()
+    }
+
+    /// Whether a note is about `path` (the note starts with the path, then `:`).
+    pub fn has_note_on(&self, path: &str) -> bool {
+        self.notes().iter().any(|note| {
+            note.strip_prefix(path)
+                .is_some_and(|rest| rest.starts_with(':') || rest.starts_with('/'))
+        })
+    }
+
+    pub fn assert_note_on(&self, path: &str) {
+        assert!(
+            self.has_note_on(path),
+            "no note on standard error names {path}\n{}",
+            self.context()
+        );
+    }
+
+    pub fn assert_no_note_on(&self, path: &str) {
+        assert!(
+            !self.has_note_on(path),
+            "a note names {path}, which is fine C and needs none\n{}",
+            self.context()
+        );
+    }
+
+    pub fn json(&self) -> Value {
+        serde_json::from_slice(&self.stdout).unwrap_or_else(|e| {
+            panic!(
+                "tauscan did not print JSON: {e}\nstdout:\n{}\n{}",
+                shown(&String::from_utf8_lossy(&self.stdout)),
+                self.context()
+            )
+        })
+    }
+}
+
+/// One reported smoother, as far as these tests care.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reported {
+    pub file: String,
+    pub function: String,
+    pub state: String,
+    pub alpha: Option<f64>,
+}
+
+pub fn reported(json: &Value) -> Vec<Reported> {
+    assert_eq!(json["schema"], 1, "unexpected schema in {json}");
+    json["smoothers"]
+        .as_array()
+        .unwrap_or_else(|| panic!("no smoothers array in {json}"))
+        .iter()
+        .map(|s| Reported {
+            file: s["file"].as_str().unwrap_or_default().to_string(),
+            function: s["function"].as_str().unwrap_or_default().to_string(),
+            state: s["state"].as_str().unwrap_or_default().to_string(),
+            alpha: s["alpha"].as_f64(),
+        })
+        .collect()
+}
+
+pub fn count_of(json: &Value, function: &str, state: &str) -> usize {
+    reported(json)
+        .iter()
+        .filter(|s| s.function == function && s.state == state)
+        .count()
+}
+
+/// The good smoother planted beside the bad input is in the JSON: the rest of the scan
+/// went on.
+pub fn assert_sibling_reported(run: &Run) {
+    let json = run.json();
+    assert!(
+        count_of(&json, "vent_tick", "y") >= 1,
+        "the good smoother vent_tick/y beside the bad input is missing from {:?}\n{}",
+        reported(&json),
+        run.context()
+    );
+}
+
+pub fn write(dir: &Path, name: &str, contents: impl AsRef<[u8]>) {
+    let path = dir.join(name);
+    if let Some(parent) = path.parent() {
+        std::fs::create_dir_all(parent).unwrap();
+    }
+    std::fs::write(path, contents).unwrap();
+}
+
+/// A temporary scan root holding the good smoother in `good.c`.
+pub fn tree_with_good_sibling() -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "root/good.c", GOOD_SMOOTHER);
+    dir
+}
+
+/// Every file and folder under `dir`, relative, sorted.
+pub fn listing(dir: &Path) -> Vec<String> {
+    fn go(base: &Path, dir: &Path, out: &mut Vec<String>) {
+        for entry in std::fs::read_dir(dir).unwrap() {
+            let path = entry.unwrap().path();
+            out.push(
+                path.strip_prefix(base)
+                    .unwrap()
+                    .to_string_lossy()
+                    .into_owned(),
+            );
+            if path.is_dir() && !path.is_symlink() {
+                go(base, &path, out);
+            }
+        }
+    }
+    let mut out = Vec::new();
+    go(dir, dir, &mut out);
+    out.sort();
+    out
+}
