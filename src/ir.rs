@@ -9,11 +9,36 @@
 use std::fmt;
 
 /// Index of a file in the scan, assigned by `walk` in a stable order.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
+///
+/// Serialised as its number. A file's IR read back from the cache belongs to whatever
+/// index the file has in this scan, so deserialising gives the index set by
+/// [`with_file_id`] when there is one (every `FileId` inside one `FileIr` is that file's).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Default, serde::Serialize)]
 pub struct FileId(pub u32);
 
+thread_local! {
+    static LOADING_AS: std::cell::Cell<Option<u32>> = const { std::cell::Cell::new(None) };
+}
+
+/// Runs `load` with every `FileId` it deserialises replaced by `file`.
+pub fn with_file_id<T>(file: FileId, load: impl FnOnce() -> T) -> T {
+    let before = LOADING_AS.with(|c| c.replace(Some(file.0)));
+    let out = load();
+    LOADING_AS.with(|c| c.set(before));
+    out
+}
+
+impl<'de> serde::Deserialize<'de> for FileId {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<FileId, D::Error> {
+        let stored = <u32 as serde::Deserialize>::deserialize(d)?;
+        Ok(FileId(LOADING_AS.with(|c| c.get()).unwrap_or(stored)))
+    }
+}
+
 /// A byte range in one file, with the 1-based line and column of its start.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, Hash, Default, serde::Serialize, serde::Deserialize,
+)]
 pub struct Span {
     pub file: FileId,
     pub start: u32,
@@ -23,7 +48,7 @@ pub struct Span {
 }
 
 /// Integer type as C sees it: width in bits and signedness.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 pub struct IntType {
     pub bits: u8,
     pub signed: bool,
@@ -31,7 +56,7 @@ pub struct IntType {
 
 /// The types tauscan distinguishes. Widths of `int`/`long` depend on the target, so the
 /// lowering records the spelling (`Int`, `Long`...) and the evaluator maps it to bits.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum CType {
     /// An integer type whose width is fixed by its name (`int16_t`, `uint8_t`, `char`).
     FixedInt(IntType),
@@ -65,7 +90,7 @@ impl CType {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 pub enum BinaryOp {
     Add,
     Sub,
@@ -137,7 +162,7 @@ impl BinaryOp {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 pub enum UnaryOp {
     Neg,
     Plus,
@@ -147,13 +172,13 @@ pub enum UnaryOp {
     AddrOf,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Expr {
     pub kind: ExprKind,
     pub span: Span,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum ExprKind {
     /// An integer literal: its value and the type its suffix and size give it.
     Int {
@@ -574,7 +599,7 @@ impl fmt::Display for Expr {
     }
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct LocalDecl {
     pub name: String,
     pub ty: CType,
@@ -585,14 +610,14 @@ pub struct LocalDecl {
 }
 
 /// A declaration's initialiser: a plain expression or a braced list.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Initializer {
     Expr(Expr),
     /// Items of `{ ... }`, each with its designator (`.k = ...`) when it has one.
     List(Vec<(Option<String>, Initializer)>),
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Stmt {
     Expr(Expr),
     Decl(Vec<LocalDecl>),
@@ -620,13 +645,13 @@ pub enum Stmt {
     Other(Span),
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Param {
     pub name: String,
     pub ty: CType,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Function {
     pub name: String,
     pub params: Vec<Param>,
@@ -639,7 +664,7 @@ pub struct Function {
 }
 
 /// One branch of a preprocessor conditional: what makes it active.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum CondBranch {
     /// `#if EXPR` / `#elif EXPR`, the expression as text.
     If(String),
@@ -652,12 +677,12 @@ pub enum CondBranch {
 /// The chain of preprocessor branches a definition sits in, outermost first. Each element
 /// is the branch taken plus the conditions of the branches before it in the same group,
 /// which must all be false for it to be taken.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize, serde::Deserialize)]
 pub struct Condition {
     pub levels: Vec<CondLevel>,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct CondLevel {
     pub branch: CondBranch,
     pub earlier: Vec<CondBranch>,
@@ -694,7 +719,7 @@ impl fmt::Display for Condition {
     }
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct MacroDef {
     pub name: String,
     /// None for object-like macros.
@@ -704,20 +729,20 @@ pub struct MacroDef {
     pub condition: Condition,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct GlobalDecl {
     pub decl: LocalDecl,
     pub condition: Condition,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct StructDef {
     pub name: String,
     pub fields: Vec<Param>,
     pub span: Span,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct EnumConst {
     pub name: String,
     /// The written value, or None for "previous + 1".
@@ -728,7 +753,7 @@ pub struct EnumConst {
 }
 
 /// Everything `parse` extracts from one file.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, serde::Serialize, serde::Deserialize)]
 pub struct FileIr {
     pub file: FileId,
     pub macros: Vec<MacroDef>,
@@ -743,7 +768,7 @@ pub struct FileIr {
 }
 
 /// Something in a file the lowering could not read; data for the report, not an error.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ParseProblem {
     pub span: Span,
     pub message: String,

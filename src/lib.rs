@@ -3,12 +3,15 @@
 //! The pipeline runs one way: `walk` → `parse` → `index` → `eval` → `recognise` →
 //! `context` → `metrics` → `report`. See ARCHITECTURE.md for the map and its invariants.
 
+pub mod cache;
 pub mod check;
 pub mod compdb;
 pub mod context;
 pub mod diff;
 pub mod eval;
 pub mod figures;
+#[doc(hidden)]
+pub mod fuzzing;
 pub mod index;
 pub mod ir;
 pub mod metrics;

@@ -5,6 +5,7 @@
 //! tree and the bytes are dropped as soon as the file is lowered), so memory follows the
 //! IR, not the trees. Problems with single files are collected as notes; the scan goes on.
 
+use crate::cache::Cache;
 use crate::figures::{self, SmootherFigures};
 use crate::index::{Program, ProgramOptions};
 use crate::ir::{FileId, FileIr};
@@ -25,6 +26,21 @@ pub struct ScanOptions {
     /// The folder paths are reported relative to (default: the one folder given, or the
     /// current one).
     pub root: Option<PathBuf>,
+    /// Where to keep each file's lowered IR between scans (`--cache`).
+    pub cache: Option<Cache>,
+}
+
+/// A file's IR: from the cache when it has this file's bytes, else parsed (and stored).
+fn lower(id: FileId, bytes: &[u8], cache: Option<&Cache>) -> FileIr {
+    let Some(cache) = cache else {
+        return crate::parse::parse_file(id, bytes);
+    };
+    if let Some(ir) = cache.load(id, bytes) {
+        return ir;
+    }
+    let ir = crate::parse::parse_file(id, bytes);
+    cache.store(bytes, &ir);
+    ir
 }
 
 /// A note about one file or the scan as a whole, for stderr and the JSON `notes`.
@@ -144,7 +160,7 @@ pub fn parse_only(options: &ScanOptions) -> ParseOnly {
 
 /// Stack for each worker: lowering and recognition recurse over the syntax, which a
 /// generated state machine can nest deeply, and debug builds use large frames.
-const WORKER_STACK: usize = 64 << 20;
+pub const WORKER_STACK: usize = 64 << 20;
 
 /// Reads, parses and analyses the files under `options.paths`, on a pool of worker
 /// threads with deep stacks (the whole scan runs there, not only the parsing).
@@ -170,7 +186,7 @@ fn run_here(options: &ScanOptions) -> Scan {
             || (!include.is_empty() && !include.iter().any(|m| m.is_match(rel)))
     };
     let walked: WalkResult = walk::walk(&options.paths, options.root.as_deref(), &skip);
-    let mut notes: Vec<ScanNote> = walked
+    let notes: Vec<ScanNote> = walked
         .problems
         .iter()
         .map(|p| ScanNote {
@@ -180,7 +196,7 @@ fn run_here(options: &ScanOptions) -> Scan {
             incomplete: p.incomplete,
         })
         .collect();
-    let mut incomplete = walked.missing_inputs || walked.problems.iter().any(|p| p.incomplete);
+    let incomplete = walked.missing_inputs || walked.problems.iter().any(|p| p.incomplete);
 
     let parsed: Vec<(FileIr, Option<String>)> = walked
         .files
@@ -189,7 +205,7 @@ fn run_here(options: &ScanOptions) -> Scan {
         .map(|(i, source)| {
             let id = FileId(i as u32);
             match std::fs::read(&source.absolute) {
-                Ok(bytes) => (crate::parse::parse_file(id, &bytes), None),
+                Ok(bytes) => (lower(id, &bytes, options.cache.as_ref()), None),
                 Err(e) => (
                     FileIr {
                         file: id,
@@ -201,6 +217,30 @@ fn run_here(options: &ScanOptions) -> Scan {
         })
         .collect();
     let paths: Vec<String> = walked.files.iter().map(|f| f.relative.clone()).collect();
+    analyse(walked.root, parsed, paths, notes, incomplete, options)
+}
+
+/// Parses and analyses sources held in memory (name, bytes), as `run` does files: for
+/// callers that have no tree on disk (the fuzz targets and their corpus replay).
+pub fn run_sources(sources: &[(String, Vec<u8>)], options: &ScanOptions) -> Scan {
+    let parsed = sources
+        .par_iter()
+        .enumerate()
+        .map(|(i, (_, bytes))| (crate::parse::parse_file(FileId(i as u32), bytes), None))
+        .collect();
+    let paths = sources.iter().map(|(name, _)| name.clone()).collect();
+    analyse(PathBuf::new(), parsed, paths, Vec::new(), false, options)
+}
+
+/// Everything after reading: notes from the lowering, the index, recognition, figures.
+fn analyse(
+    root: PathBuf,
+    parsed: Vec<(FileIr, Option<String>)>,
+    paths: Vec<String>,
+    mut notes: Vec<ScanNote>,
+    mut incomplete: bool,
+    options: &ScanOptions,
+) -> Scan {
     let mut files = Vec::with_capacity(parsed.len());
     for (ir, read_error) in parsed {
         let path = paths[ir.file.0 as usize].clone();
@@ -235,7 +275,7 @@ fn run_here(options: &ScanOptions) -> Scan {
     }
     let figures = figures::for_all(&recognition.smoothers);
     Scan {
-        root: walked.root,
+        root,
         program,
         recognition,
         figures,

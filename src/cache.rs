@@ -1,0 +1,126 @@
+//! The opt-in parse cache (`--cache DIR`): each file's lowered IR, stored under the
+//! SHA-256 of the file's bytes and of the running tauscan executable, so that a second
+//! scan of an unchanged file skips tree-sitter and the lowering.
+//!
+//! Safe to delete at any time, and never trusted beyond its key: an entry that is missing,
+//! unreadable, truncated or from another build is parsed again and rewritten. Entries are
+//! written through a temporary file and a rename, so concurrent scans sharing one folder
+//! see whole entries or none. The cache changes how fast a scan is, never what it finds;
+//! `tests/cache.rs` holds it to that.
+
+use crate::ir::{FileId, FileIr};
+use sha2::{Digest, Sha256};
+use std::path::{Path, PathBuf};
+use std::sync::OnceLock;
+
+/// Bumped when the entry layout changes in a way the executable's hash would not show.
+const LAYOUT: &[u8] = b"tauscan-ir-cache-1";
+
+/// A cache folder, ready to use.
+#[derive(Debug, Clone)]
+pub struct Cache {
+    dir: PathBuf,
+}
+
+impl Cache {
+    /// Opens (creating it when needed) the cache folder `dir`.
+    pub fn open(dir: &Path) -> std::io::Result<Cache> {
+        std::fs::create_dir_all(dir)?;
+        Ok(Cache {
+            dir: dir.to_path_buf(),
+        })
+    }
+
+    fn entry(&self, bytes: &[u8]) -> PathBuf {
+        let mut hasher = Sha256::new();
+        hasher.update(LAYOUT);
+        hasher.update(build_id());
+        hasher.update((bytes.len() as u64).to_le_bytes());
+        hasher.update(bytes);
+        let digest = hasher.finalize();
+        let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
+        self.dir.join(&hex[..2]).join(format!("{}.ir", &hex[2..]))
+    }
+
+    /// The IR of a file with these bytes, as file `file` of this scan, when the cache has
+    /// a readable entry for it.
+    pub fn load(&self, file: FileId, bytes: &[u8]) -> Option<FileIr> {
+        let stored = std::fs::read(self.entry(bytes)).ok()?;
+        let mut ir: FileIr =
+            crate::ir::with_file_id(file, || postcard::from_bytes(&stored)).ok()?;
+        ir.file = file;
+        Some(ir)
+    }
+
+    /// Stores the IR of a file with these bytes. Failures (a full disk, a read-only
+    /// folder) only mean a slower next scan, so they are not reported.
+    pub fn store(&self, bytes: &[u8], ir: &FileIr) {
+        let Ok(encoded) = postcard::to_stdvec(ir) else {
+            return;
+        };
+        let path = self.entry(bytes);
+        if let Some(folder) = path.parent() {
+            if std::fs::create_dir_all(folder).is_err() {
+                return;
+            }
+        }
+        let _ = crate::report::write_atomically(&path, &encoded);
+    }
+}
+
+/// The SHA-256 of the running executable: an entry written by another build (another
+/// lowering) is never read back. Computed once per process.
+fn build_id() -> &'static [u8] {
+    static ID: OnceLock<Vec<u8>> = OnceLock::new();
+    ID.get_or_init(|| {
+        let mut hasher = Sha256::new();
+        hasher.update(env!("CARGO_PKG_VERSION").as_bytes());
+        match std::env::current_exe().and_then(std::fs::read) {
+            Ok(executable) => hasher.update(&executable),
+            // Without its own bytes a build cannot be told from another: a fresh random
+            // salt keeps entries to this process rather than risk a stale one.
+            Err(_) => hasher.update(
+                std::time::SystemTime::now()
+                    .duration_since(std::time::UNIX_EPOCH)
+                    .map(|d| d.as_nanos())
+                    .unwrap_or(0)
+                    .to_le_bytes(),
+            ),
+        }
+        hasher.finalize().to_vec()
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn an_entry_comes_back_as_the_file_of_this_scan() {
+        let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("{e}"));
+        let cache = Cache::open(dir.path()).unwrap_or_else(|e| panic!("{e}"));
+        let source = b"static int y;\nvoid f(int u) { y += (u - y) >> 3; }\n";
+        let ir = crate::parse::parse_file(FileId(3), source);
+        cache.store(source, &ir);
+        let back = cache
+            .load(FileId(7), source)
+            .unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(back.file, FileId(7));
+        let fresh = crate::parse::parse_file(FileId(7), source);
+        assert_eq!(format!("{back:?}"), format!("{fresh:?}"));
+        // Other bytes are another entry.
+        assert!(cache.load(FileId(7), b"int x;\n").is_none());
+    }
+
+    #[test]
+    fn a_damaged_entry_is_not_used() {
+        let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("{e}"));
+        let cache = Cache::open(dir.path()).unwrap_or_else(|e| panic!("{e}"));
+        let source = b"static float y;\nvoid f(float u) { y += 0.1f * (u - y); }\n";
+        cache.store(source, &crate::parse::parse_file(FileId(0), source));
+        let path = cache.entry(source);
+        let stored = std::fs::read(&path).unwrap_or_else(|e| panic!("{e}"));
+        std::fs::write(&path, &stored[..stored.len() / 2]).unwrap_or_else(|e| panic!("{e}"));
+        assert!(cache.load(FileId(0), source).is_none());
+    }
+}

@@ -1,0 +1,171 @@
+//! The parse cache (`--cache DIR`) changes how fast a scan is, never what it reports: on
+//! the fixture trees, a scan without the cache, one that fills it and one that reads it
+//! print the same bytes and exit the same way; damaged entries and edited files are
+//! parsed again, never served stale. (How much faster is the benchmark's business.)
+#![allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    reason = "a test that cannot build its fixture should stop at once with the cause"
+)]
+
+mod common;
+
+use common::*;
+use std::path::{Path, PathBuf};
+
+fn fixture(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fixtures")
+        .join(name)
+}
+
+/// Copies the files (not folders) of `from` into `to`, recursively.
+fn copy_tree(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for entry in std::fs::read_dir(from).unwrap() {
+        let path = entry.unwrap().path();
+        let target = to.join(path.file_name().unwrap());
+        if path.is_dir() {
+            copy_tree(&path, &target);
+        } else {
+            std::fs::copy(&path, &target).unwrap();
+        }
+    }
+}
+
+/// Runs `args` in `dir` with `--cache cache` appended when given; stdout and exit code.
+fn output(dir: &Path, args: &[&str], cache: Option<&Path>) -> (Vec<u8>, Option<i32>) {
+    let cache_text;
+    let mut all: Vec<&str> = args.to_vec();
+    if let Some(c) = cache {
+        cache_text = c.to_string_lossy().into_owned();
+        all.push("--cache");
+        all.push(&cache_text);
+    }
+    let run = tauscan_in(dir, &all, LIMIT);
+    run.assert_finished();
+    (run.stdout, run.code)
+}
+
+/// The entry files under the cache folder.
+fn entries(cache: &Path) -> Vec<PathBuf> {
+    let mut out = Vec::new();
+    for folder in std::fs::read_dir(cache).unwrap() {
+        let folder = folder.unwrap().path();
+        if folder.is_dir() {
+            for entry in std::fs::read_dir(&folder).unwrap() {
+                out.push(entry.unwrap().path());
+            }
+        }
+    }
+    out
+}
+
+fn assert_same(what: &str, a: &(Vec<u8>, Option<i32>), b: &(Vec<u8>, Option<i32>)) {
+    assert_eq!(a.1, b.1, "{what}: exit status differs");
+    assert!(
+        a.0 == b.0,
+        "{what}: output differs\n--- without the cache\n{}\n--- with it\n{}",
+        shown(&String::from_utf8_lossy(&a.0)),
+        shown(&String::from_utf8_lossy(&b.0))
+    );
+}
+
+#[test]
+fn cached_scans_print_exactly_what_uncached_scans_print() {
+    for (tree, args) in [
+        ("forms", &["list", "tree", "--format", "json"][..]),
+        (
+            "demo-greenhouse",
+            &["check", "tree", "--format", "json"][..],
+        ),
+        ("demo-greenhouse", &["check", "tree"][..]),
+        ("decoys", &["list", "tree", "--format", "json"][..]),
+        ("rates", &["list", "tree", "--format", "json"][..]),
+    ] {
+        let dir = tempfile::tempdir().unwrap();
+        copy_tree(&fixture(tree), &dir.path().join("tree"));
+        let cache = dir.path().join("cache");
+        let plain = output(dir.path(), args, None);
+        let filling = output(dir.path(), args, Some(&cache));
+        assert_same(&format!("{tree}, filling the cache"), &plain, &filling);
+        assert!(
+            !entries(&cache).is_empty(),
+            "{tree}: the cache folder holds no entry after a scan"
+        );
+        let reading = output(dir.path(), args, Some(&cache));
+        assert_same(&format!("{tree}, reading the cache"), &plain, &reading);
+    }
+}
+
+#[test]
+fn damaged_entries_are_parsed_again() {
+    let dir = tempfile::tempdir().unwrap();
+    copy_tree(&fixture("forms"), &dir.path().join("tree"));
+    let cache = dir.path().join("cache");
+    let args = ["list", "tree", "--format", "json"];
+    let plain = output(dir.path(), &args, None);
+    output(dir.path(), &args, Some(&cache));
+    let all = entries(&cache);
+    assert!(all.len() >= 3, "too few entries to damage: {all:?}");
+    // Truncated, emptied, and replaced with garbage.
+    for (i, entry) in all.iter().enumerate() {
+        let bytes = std::fs::read(entry).unwrap();
+        let damaged = match i % 3 {
+            0 => bytes[..bytes.len() / 2].to_vec(),
+            1 => Vec::new(),
+            _ => vec![0xff; 64],
+        };
+        std::fs::write(entry, damaged).unwrap();
+    }
+    let reading = output(dir.path(), &args, Some(&cache));
+    assert_same("damaged entries", &plain, &reading);
+    // And the cache can be deleted outright.
+    std::fs::remove_dir_all(&cache).unwrap();
+    let again = output(dir.path(), &args, Some(&cache));
+    assert_same("deleted cache", &plain, &again);
+}
+
+#[test]
+fn an_edited_file_is_not_served_from_the_cache() {
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("tree");
+    write(
+        &tree,
+        "kiln.c",
+        "static int y; void kiln_tick(int u) { y += (u - y) >> 3; }\n",
+    );
+    let cache = dir.path().join("cache");
+    let args = ["list", "tree", "--format", "json"];
+    output(dir.path(), &args, Some(&cache));
+    // The same length, another shift: a cache keyed on size or time alone would miss it.
+    write(
+        &tree,
+        "kiln.c",
+        "static int y; void kiln_tick(int u) { y += (u - y) >> 5; }\n",
+    );
+    let plain = output(dir.path(), &args, None);
+    let reading = output(dir.path(), &args, Some(&cache));
+    assert_same("edited file", &plain, &reading);
+    let json: serde_json::Value = serde_json::from_slice(&reading.0).unwrap();
+    // 2^-5: the edited shift, not the cached one.
+    assert_eq!(json["smoothers"][0]["alpha"].as_f64(), Some(1.0 / 32.0));
+}
+
+#[test]
+fn a_cache_folder_that_cannot_be_made_is_a_clear_error() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "tree/kiln.c", GOOD_SMOOTHER);
+    write(dir.path(), "blocker", "a file, not a folder");
+    let run = tauscan_in(
+        dir.path(),
+        &["list", "tree", "--cache", "blocker/cache"],
+        LIMIT,
+    );
+    run.assert_exit(2, "the cache folder cannot be created");
+    assert!(
+        run.stderr.contains("cache"),
+        "the error does not name the cache\n{}",
+        run.context()
+    );
+}
