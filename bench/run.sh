@@ -33,7 +33,7 @@ measure() {
     echo "$best $rss"
 }
 
-printf '%-9s %9s %9s %7s %9s %11s %9s %9s %8s\n' lines parse_s check_s ratio MB/s lines/s rss_MB t1_s speedup
+printf '%-9s %9s %9s %7s %9s %11s %9s %9s %8s %9s %8s\n' lines parse_s check_s ratio MB/s lines/s rss_MB t1_s speedup cached_s gain
 for n in "${sizes[@]}"; do
     tree="$work/tree-$n"
     [ -d "$tree" ] || python3 bench/generate.py "$tree" "$n" > /dev/null
@@ -42,8 +42,14 @@ for n in "${sizes[@]}"; do
     read -r parse _ < <(measure "$bin" debug parse-only "$tree")
     read -r check rss < <(measure "$bin" check --format json "$tree")
     read -r one _ < <(RAYON_NUM_THREADS=1 measure "$bin" check --format json "$tree")
-    printf '%-9s %9.3f %9.3f %7.2f %9.2f %11.0f %9.1f %9.3f %8.2f\n' \
+    # The parse cache: filled by one run, then timed on the unchanged tree.
+    cache="$work/cache-$n"
+    rm -rf "$cache"
+    "$bin" check --format json --cache "$cache" "$tree" > /dev/null 2>&1 || true
+    read -r cached _ < <(measure "$bin" check --format json --cache "$cache" "$tree")
+    printf '%-9s %9.3f %9.3f %7.2f %9.2f %11.0f %9.1f %9.3f %8.2f %9.3f %8.2f\n' \
         "$lines" "$parse" "$check" "$(echo "$check / $parse" | bc -l)" \
         "$(echo "$bytes / 1000000 / $check" | bc -l)" "$(echo "$lines / $check" | bc -l)" \
-        "$(echo "$rss / 1024" | bc -l)" "$one" "$(echo "$one / $check" | bc -l)"
+        "$(echo "$rss / 1024" | bc -l)" "$one" "$(echo "$one / $check" | bc -l)" \
+        "$cached" "$(echo "$check / $cached" | bc -l)"
 done

@@ -628,10 +628,11 @@ pub enum Stmt {
         otherwise: Option<Box<Stmt>>,
     },
     /// `for`, `while`, `do`: the body runs zero or more times.
+    /// (The expressions are boxed to keep every `Stmt` small: most are not loops.)
     Loop {
         init: Vec<Stmt>,
-        cond: Option<Expr>,
-        step: Option<Expr>,
+        cond: Option<Box<Expr>>,
+        step: Option<Box<Expr>>,
         body: Box<Stmt>,
         span: Span,
     },

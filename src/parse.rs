@@ -217,6 +217,9 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
             ),
         });
     }
+    ir.macros.shrink_to_fit();
+    ir.globals.shrink_to_fit();
+    ir.functions.shrink_to_fit();
     ir
 }
 
@@ -937,6 +940,8 @@ impl Lower<'_> {
                 stmts.push(stmt);
             }
         }
+        // Kept for the whole scan: no spare capacity.
+        stmts.shrink_to_fit();
         stmts
     }
 
@@ -1003,8 +1008,8 @@ impl Lower<'_> {
                     .unwrap_or(Stmt::Block(Vec::new()));
                 Stmt::Loop {
                     init,
-                    cond,
-                    step,
+                    cond: cond.map(Box::new),
+                    step: step.map(Box::new),
                     body: Box::new(body),
                     span: self.span(node),
                 }
@@ -1019,7 +1024,7 @@ impl Lower<'_> {
                     .unwrap_or(Stmt::Block(Vec::new()));
                 Stmt::Loop {
                     init: Vec::new(),
-                    cond,
+                    cond: cond.map(Box::new),
                     step: None,
                     body: Box::new(body),
                     span: self.span(node),

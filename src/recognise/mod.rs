@@ -562,7 +562,7 @@ impl<'p> Walker<'p> {
                 cond,
                 span,
             } => {
-                if let Some(c) = self.resummed_loop(init, cond.as_ref(), body, *span) {
+                if let Some(c) = self.resummed_loop(init, cond.as_deref(), body, *span) {
                     self.candidates.push((c, None));
                 }
                 self.block(init);

@@ -45,7 +45,7 @@ fn visit_loops(stmts: &[Stmt], f: &mut LoopVisitor) {
             Stmt::Loop {
                 body, cond, step, ..
             } => {
-                f(body, cond.as_ref(), step.as_ref());
+                f(body, cond.as_deref(), step.as_deref());
                 visit_loops(std::slice::from_ref(body), f);
             }
             Stmt::Block(items) => visit_loops(items, f),
