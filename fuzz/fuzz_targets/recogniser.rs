@@ -1,0 +1,6 @@
+//! Fuzz target: `tauscan::fuzzing::recogniser` on arbitrary bytes (see that function's doc).
+#![no_main]
+
+libfuzzer_sys::fuzz_target!(|data: &[u8]| {
+    tauscan::fuzzing::recogniser(data);
+});
