@@ -1,5 +1,5 @@
 //! The opt-in parse cache (`--cache DIR`): each file's lowered IR, stored under the
-//! SHA-256 of the file's bytes and of the running tauscan executable, so that a second
+//! SHA-256 of the file's bytes and of the running build's identity, so that a second
 //! scan of an unchanged file skips tree-sitter and the lowering.
 //!
 //! Safe to delete at any time, and never trusted beyond its key: an entry that is missing,
@@ -13,7 +13,7 @@ use sha2::{Digest, Sha256};
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
-/// Bumped when the entry layout changes in a way the executable's hash would not show.
+/// Bumped when the entry layout changes in a way the build's identity would not show.
 const LAYOUT: &[u8] = b"tauscan-ir-cache-1";
 
 /// A cache folder, ready to use.
@@ -68,18 +68,34 @@ impl Cache {
     }
 }
 
-/// The SHA-256 of the running executable: an entry written by another build (another
-/// lowering) is never read back. Computed once per process.
+/// The identity of the running build: tauscan's version and the running executable's
+/// path, size and modification time, so that an entry written by another build (another
+/// lowering) is never read back. (Hashing the executable's bytes would cost more than a
+/// small scan; a rebuild always changes the time.) Computed once per process.
 fn build_id() -> &'static [u8] {
     static ID: OnceLock<Vec<u8>> = OnceLock::new();
     ID.get_or_init(|| {
         let mut hasher = Sha256::new();
         hasher.update(env!("CARGO_PKG_VERSION").as_bytes());
-        match std::env::current_exe().and_then(std::fs::read) {
-            Ok(executable) => hasher.update(&executable),
-            // Without its own bytes a build cannot be told from another: a fresh random
-            // salt keeps entries to this process rather than risk a stale one.
-            Err(_) => hasher.update(
+        let exe = std::env::current_exe();
+        let stamp = exe.as_ref().ok().and_then(|path| {
+            let meta = std::fs::metadata(path).ok()?;
+            let modified = meta
+                .modified()
+                .ok()?
+                .duration_since(std::time::UNIX_EPOCH)
+                .ok()?;
+            Some((path.to_string_lossy().into_owned(), meta.len(), modified))
+        });
+        match stamp {
+            Some((path, len, modified)) => {
+                hasher.update(path.as_bytes());
+                hasher.update(len.to_le_bytes());
+                hasher.update(modified.as_nanos().to_le_bytes());
+            }
+            // Without a stamp a build cannot be told from another: a fresh salt keeps
+            // entries to this process rather than risk a stale one.
+            None => hasher.update(
                 std::time::SystemTime::now()
                     .duration_since(std::time::UNIX_EPOCH)
                     .map(|d| d.as_nanos())

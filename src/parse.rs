@@ -78,6 +78,68 @@ mod kind {
     pub const COMMENT: &str = "comment";
 }
 
+/// The grammar's field names, looked up once: `child_by_field_name` compares the name with
+/// every field of the language on each call, which showed in profiles of large trees.
+mod field {
+    pub const ALTERNATIVE: usize = 0;
+    pub const ARGUMENT: usize = 1;
+    pub const ARGUMENTS: usize = 2;
+    pub const BODY: usize = 3;
+    pub const CONDITION: usize = 4;
+    pub const CONSEQUENCE: usize = 5;
+    pub const DECLARATOR: usize = 6;
+    pub const DESIGNATOR: usize = 7;
+    pub const FIELD: usize = 8;
+    pub const FUNCTION: usize = 9;
+    pub const INDEX: usize = 10;
+    pub const INITIALIZER: usize = 11;
+    pub const LABEL: usize = 12;
+    pub const LEFT: usize = 13;
+    pub const NAME: usize = 14;
+    pub const OPERATOR: usize = 15;
+    pub const PARAMETERS: usize = 16;
+    pub const RIGHT: usize = 17;
+    pub const SIZE: usize = 18;
+    pub const TYPE: usize = 19;
+    pub const UPDATE: usize = 20;
+    pub const VALUE: usize = 21;
+    pub const NAMES: [&str; 22] = [
+        "alternative",
+        "argument",
+        "arguments",
+        "body",
+        "condition",
+        "consequence",
+        "declarator",
+        "designator",
+        "field",
+        "function",
+        "index",
+        "initializer",
+        "label",
+        "left",
+        "name",
+        "operator",
+        "parameters",
+        "right",
+        "size",
+        "type",
+        "update",
+        "value",
+    ];
+}
+
+/// The child of `node` in grammar field `field` (one of `field::*`).
+fn field_child<'t>(node: Node<'t>, field: usize) -> Option<Node<'t>> {
+    static IDS: std::sync::OnceLock<[u16; field::NAMES.len()]> = std::sync::OnceLock::new();
+    let ids = IDS.get_or_init(|| {
+        let language: tree_sitter::Language = tree_sitter_c::LANGUAGE.into();
+        // A name the grammar lacks gets 0, for which tree-sitter finds no child.
+        field::NAMES.map(|name| language.field_id_for_name(name).map_or(0, |id| id.get()))
+    });
+    node.child_by_field_id(ids[field])
+}
+
 fn new_parser() -> Option<Parser> {
     let mut parser = Parser::new();
     parser.set_language(&tree_sitter_c::LANGUAGE.into()).ok()?;
@@ -524,8 +586,7 @@ impl Lower<'_> {
             }
             let branch = match group.kind() {
                 kind::PREPROC_IFDEF => {
-                    let name = group
-                        .child_by_field_name("name")
+                    let name = field_child(group, field::NAME)
                         .map(|n| self.text(n))
                         .unwrap_or_default();
                     let negated = all_children(group)
@@ -539,22 +600,21 @@ impl Lower<'_> {
                     }
                 }
                 kind::PREPROC_IF | kind::PREPROC_ELIF => {
-                    let text = group
-                        .child_by_field_name("condition")
+                    let text = field_child(group, field::CONDITION)
                         .map(|n| self.text(n))
                         .unwrap_or_default();
                     CondBranch::If(text.trim().to_string())
                 }
                 _ => CondBranch::Else,
             };
-            let alternative = group.child_by_field_name("alternative");
+            let alternative = field_child(group, field::ALTERNATIVE);
             let mut items = Vec::new();
             for child in named_children(group) {
                 if Some(child) == alternative {
                     continue;
                 }
-                if group.child_by_field_name("condition") == Some(child)
-                    || group.child_by_field_name("name") == Some(child)
+                if field_child(group, field::CONDITION) == Some(child)
+                    || field_child(group, field::NAME) == Some(child)
                 {
                     continue;
                 }
@@ -576,11 +636,11 @@ impl Lower<'_> {
     }
 
     fn macro_def(&mut self, node: Node, cond: &Condition, function_like: bool) {
-        let Some(name) = node.child_by_field_name("name").map(|n| self.text(n)) else {
+        let Some(name) = field_child(node, field::NAME).map(|n| self.text(n)) else {
             return;
         };
         let params = if function_like {
-            node.child_by_field_name("parameters").map(|p| {
+            field_child(node, field::PARAMETERS).map(|p| {
                 named_children(p)
                     .into_iter()
                     .map(|n| self.text(n))
@@ -594,7 +654,7 @@ impl Lower<'_> {
         } else {
             None
         };
-        let (body, span) = match node.child_by_field_name("value") {
+        let (body, span) = match field_child(node, field::VALUE) {
             Some(v) => (self.text(v), self.span(v)),
             None => (String::new(), self.span(node)),
         };
@@ -611,11 +671,10 @@ impl Lower<'_> {
 
     fn function(&mut self, node: Node, cond: &Condition) {
         let specifiers = self.specifiers(node);
-        let base_type = node
-            .child_by_field_name("type")
+        let base_type = field_child(node, field::TYPE)
             .map(|t| self.type_of(t))
             .unwrap_or(CType::PlainInt { signed: true });
-        let Some(declarator) = node.child_by_field_name("declarator") else {
+        let Some(declarator) = field_child(node, field::DECLARATOR) else {
             return;
         };
         let Some((name, ty, params, name_span)) = self.declarator(declarator, base_type) else {
@@ -625,8 +684,7 @@ impl Lower<'_> {
             CType::Unknown(_) => CType::Unknown("?".into()),
             other => other,
         };
-        let body = node
-            .child_by_field_name("body")
+        let body = field_child(node, field::BODY)
             .map(|b| self.block(b, 0))
             .unwrap_or_default();
         self.ir.functions.push(Function {
@@ -694,18 +752,16 @@ impl Lower<'_> {
     }
 
     fn struct_specifier_inner(&mut self, node: Node) -> String {
-        let name = node
-            .child_by_field_name("name")
+        let name = field_child(node, field::NAME)
             .map(|n| self.text(n))
             .unwrap_or_else(|| format!("<anon@{}>", node.start_byte()));
-        if let Some(body) = node.child_by_field_name("body") {
+        if let Some(body) = field_child(node, field::BODY) {
             let mut fields = Vec::new();
             for field in named_children(body) {
                 if field.kind() != kind::FIELD_DECLARATION {
                     continue;
                 }
-                let base = field
-                    .child_by_field_name("type")
+                let base = field_child(field, field::TYPE)
                     .map(|t| self.type_of(t))
                     .unwrap_or(CType::Unknown("?".into()));
                 let mut cursor = field.walk();
@@ -732,7 +788,7 @@ impl Lower<'_> {
     }
 
     fn enum_specifier(&mut self, node: Node) {
-        let Some(body) = node.child_by_field_name("body") else {
+        let Some(body) = field_child(node, field::BODY) else {
             return;
         };
         let mut previous: Option<String> = None;
@@ -740,10 +796,10 @@ impl Lower<'_> {
             if e.kind() != kind::ENUMERATOR {
                 continue;
             }
-            let Some(name) = e.child_by_field_name("name").map(|n| self.text(n)) else {
+            let Some(name) = field_child(e, field::NAME).map(|n| self.text(n)) else {
                 continue;
             };
-            let value = e.child_by_field_name("value").map(|v| self.expr(v, 0));
+            let value = field_child(e, field::VALUE).map(|v| self.expr(v, 0));
             let span = self.span(e);
             self.ir.enums.push(EnumConst {
                 name: name.clone(),
@@ -756,8 +812,7 @@ impl Lower<'_> {
     }
 
     fn type_definition(&mut self, node: Node) {
-        let base = node
-            .child_by_field_name("type")
+        let base = field_child(node, field::TYPE)
             .map(|t| self.type_of(t))
             .unwrap_or(CType::Unknown("?".into()));
         let mut cursor = node.walk();
@@ -788,31 +843,28 @@ impl Lower<'_> {
                 }
                 kind::POINTER_DECLARATOR => {
                     ty = CType::Pointer(Box::new(ty));
-                    current = current.child_by_field_name("declarator")?;
+                    current = field_child(current, field::DECLARATOR)?;
                 }
                 kind::ARRAY_DECLARATOR => {
-                    let size = current
-                        .child_by_field_name("size")
-                        .map(|s| Box::new(self.expr(s, 0)));
+                    let size = field_child(current, field::SIZE).map(|s| Box::new(self.expr(s, 0)));
                     ty = CType::Array(Box::new(ty), size);
-                    current = current.child_by_field_name("declarator")?;
+                    current = field_child(current, field::DECLARATOR)?;
                 }
                 kind::FUNCTION_DECLARATOR => {
                     if params.is_none() {
                         params = Some(self.parameters(current));
                     }
-                    current = current.child_by_field_name("declarator")?;
+                    current = field_child(current, field::DECLARATOR)?;
                 }
                 kind::PARENTHESIZED_DECLARATOR => {
                     current = named_children(current).into_iter().next()?;
                 }
                 kind::INIT_DECLARATOR => {
-                    current = current.child_by_field_name("declarator")?;
+                    current = field_child(current, field::DECLARATOR)?;
                 }
                 _ => {
                     // Attributed or otherwise decorated declarators: look inside.
-                    current = current
-                        .child_by_field_name("declarator")
+                    current = field_child(current, field::DECLARATOR)
                         .or_else(|| named_children(current).into_iter().next())?;
                 }
             }
@@ -821,7 +873,7 @@ impl Lower<'_> {
     }
 
     fn parameters(&mut self, function_declarator: Node) -> Vec<Param> {
-        let Some(list) = function_declarator.child_by_field_name("parameters") else {
+        let Some(list) = field_child(function_declarator, field::PARAMETERS) else {
             return Vec::new();
         };
         let mut params = Vec::new();
@@ -829,11 +881,10 @@ impl Lower<'_> {
             if p.kind() != kind::PARAMETER_DECLARATION {
                 continue;
             }
-            let base = p
-                .child_by_field_name("type")
+            let base = field_child(p, field::TYPE)
                 .map(|t| self.type_of(t))
                 .unwrap_or(CType::Unknown("?".into()));
-            match p.child_by_field_name("declarator") {
+            match field_child(p, field::DECLARATOR) {
                 Some(d) => {
                     if let Some((name, ty, _, _)) = self.declarator(d, base) {
                         params.push(Param { name, ty });
@@ -854,8 +905,7 @@ impl Lower<'_> {
 
     fn declarations(&mut self, node: Node, depth: u32) -> Vec<LocalDecl> {
         let spec = self.specifiers(node);
-        let base = node
-            .child_by_field_name("type")
+        let base = field_child(node, field::TYPE)
             .map(|t| self.type_of(t))
             .unwrap_or(CType::Unknown("?".into()));
         let mut cursor = node.walk();
@@ -865,8 +915,7 @@ impl Lower<'_> {
         let mut result = Vec::new();
         for d in declarators {
             let init = if d.kind() == kind::INIT_DECLARATOR {
-                d.child_by_field_name("value")
-                    .map(|v| self.initializer(v, depth))
+                field_child(d, field::VALUE).map(|v| self.initializer(v, depth))
             } else {
                 None
             };
@@ -900,12 +949,10 @@ impl Lower<'_> {
                     continue;
                 }
                 if item.kind() == kind::INITIALIZER_PAIR {
-                    let designator = item
-                        .child_by_field_name("designator")
+                    let designator = field_child(item, field::DESIGNATOR)
                         .filter(|d| d.kind() == kind::FIELD_DESIGNATOR)
                         .map(|d| self.text(d).trim_start_matches('.').trim().to_string());
-                    let value = item
-                        .child_by_field_name("value")
+                    let value = field_child(item, field::VALUE)
                         .map(|v| self.initializer(v, depth + 1))
                         .unwrap_or(Initializer::List(Vec::new()));
                     items.push((designator, value));
@@ -966,15 +1013,13 @@ impl Lower<'_> {
             },
             kind::DECLARATION => Stmt::Decl(self.declarations(node, depth)),
             kind::IF_STATEMENT => {
-                let cond = node
-                    .child_by_field_name("condition")
+                let cond = field_child(node, field::CONDITION)
                     .map(|c| self.expr(c, depth))
                     .unwrap_or_else(|| self.opaque(node));
-                let then = node
-                    .child_by_field_name("consequence")
+                let then = field_child(node, field::CONSEQUENCE)
                     .and_then(|c| self.stmt(c, depth + 1))
                     .unwrap_or(Stmt::Block(Vec::new()));
-                let otherwise = node.child_by_field_name("alternative").and_then(|a| {
+                let otherwise = field_child(node, field::ALTERNATIVE).and_then(|a| {
                     let inner = if a.kind() == kind::ELSE_CLAUSE {
                         named_children(a).into_iter().next()?
                     } else {
@@ -989,21 +1034,16 @@ impl Lower<'_> {
                 }
             }
             kind::FOR_STATEMENT => {
-                let init = match node.child_by_field_name("initializer") {
+                let init = match field_child(node, field::INITIALIZER) {
                     Some(i) if i.kind() == kind::DECLARATION => {
                         vec![Stmt::Decl(self.declarations(i, depth))]
                     }
                     Some(i) => vec![Stmt::Expr(self.expr(i, depth))],
                     None => Vec::new(),
                 };
-                let cond = node
-                    .child_by_field_name("condition")
-                    .map(|c| self.expr(c, depth));
-                let step = node
-                    .child_by_field_name("update")
-                    .map(|u| self.expr(u, depth));
-                let body = node
-                    .child_by_field_name("body")
+                let cond = field_child(node, field::CONDITION).map(|c| self.expr(c, depth));
+                let step = field_child(node, field::UPDATE).map(|u| self.expr(u, depth));
+                let body = field_child(node, field::BODY)
                     .and_then(|b| self.stmt(b, depth + 1))
                     .unwrap_or(Stmt::Block(Vec::new()));
                 Stmt::Loop {
@@ -1015,11 +1055,8 @@ impl Lower<'_> {
                 }
             }
             kind::WHILE_STATEMENT | kind::DO_STATEMENT => {
-                let cond = node
-                    .child_by_field_name("condition")
-                    .map(|c| self.expr(c, depth));
-                let body = node
-                    .child_by_field_name("body")
+                let cond = field_child(node, field::CONDITION).map(|c| self.expr(c, depth));
+                let body = field_child(node, field::BODY)
                     .and_then(|b| self.stmt(b, depth + 1))
                     .unwrap_or(Stmt::Block(Vec::new()));
                 Stmt::Loop {
@@ -1031,12 +1068,10 @@ impl Lower<'_> {
                 }
             }
             kind::SWITCH_STATEMENT => {
-                let scrutinee = node
-                    .child_by_field_name("condition")
+                let scrutinee = field_child(node, field::CONDITION)
                     .map(|c| self.expr(c, depth))
                     .unwrap_or_else(|| self.opaque(node));
-                let body = node
-                    .child_by_field_name("body")
+                let body = field_child(node, field::BODY)
                     .and_then(|b| self.stmt(b, depth + 1))
                     .unwrap_or(Stmt::Block(Vec::new()));
                 Stmt::Switch {
@@ -1049,8 +1084,8 @@ impl Lower<'_> {
                 // not matter to smoothers.
                 let mut inner = Vec::new();
                 for child in named_children(node) {
-                    if node.child_by_field_name("value") == Some(child)
-                        || node.child_by_field_name("label") == Some(child)
+                    if field_child(node, field::VALUE) == Some(child)
+                        || field_child(node, field::LABEL) == Some(child)
                     {
                         continue;
                     }
@@ -1116,7 +1151,7 @@ impl Lower<'_> {
             self.note_error(node);
             return self.opaque(node);
         }
-        let child = |field: &str| node.child_by_field_name(field);
+        let child = |field: usize| field_child(node, field);
         let kind = match node.kind() {
             kind::IDENTIFIER => ExprKind::Ident(self.text(node)),
             kind::NUMBER_LITERAL => {
@@ -1168,8 +1203,14 @@ impl Lower<'_> {
                 };
             }
             kind::BINARY_EXPRESSION => {
-                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
-                match (BinaryOp::from_text(&op_text), child("left"), child("right")) {
+                let op_text = child(field::OPERATOR)
+                    .map(|o| self.text(o))
+                    .unwrap_or_default();
+                match (
+                    BinaryOp::from_text(&op_text),
+                    child(field::LEFT),
+                    child(field::RIGHT),
+                ) {
                     (Some(op), Some(l), Some(r)) => ExprKind::Binary {
                         op,
                         lhs: Box::new(self.expr(l, depth + 1)),
@@ -1179,7 +1220,9 @@ impl Lower<'_> {
                 }
             }
             kind::UNARY_EXPRESSION | kind::POINTER_EXPRESSION => {
-                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                let op_text = child(field::OPERATOR)
+                    .map(|o| self.text(o))
+                    .unwrap_or_default();
                 let op = match op_text.as_str() {
                     "-" => Some(UnaryOp::Neg),
                     "+" => Some(UnaryOp::Plus),
@@ -1189,7 +1232,7 @@ impl Lower<'_> {
                     "&" => Some(UnaryOp::AddrOf),
                     _ => None,
                 };
-                match (op, child("argument")) {
+                match (op, child(field::ARGUMENT)) {
                     (Some(op), Some(arg)) => ExprKind::Unary {
                         op,
                         arg: Box::new(self.expr(arg, depth + 1)),
@@ -1198,7 +1241,9 @@ impl Lower<'_> {
                 }
             }
             kind::ASSIGNMENT_EXPRESSION => {
-                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
+                let op_text = child(field::OPERATOR)
+                    .map(|o| self.text(o))
+                    .unwrap_or_default();
                 let op = if op_text == "=" {
                     None
                 } else {
@@ -1207,7 +1252,7 @@ impl Lower<'_> {
                         None => return self.opaque(node),
                     }
                 };
-                match (child("left"), child("right")) {
+                match (child(field::LEFT), child(field::RIGHT)) {
                     (Some(l), Some(r)) => ExprKind::Assign {
                         op,
                         target: Box::new(self.expr(l, depth + 1)),
@@ -1217,8 +1262,10 @@ impl Lower<'_> {
                 }
             }
             kind::UPDATE_EXPRESSION => {
-                let op_text = child("operator").map(|o| self.text(o)).unwrap_or_default();
-                match child("argument") {
+                let op_text = child(field::OPERATOR)
+                    .map(|o| self.text(o))
+                    .unwrap_or_default();
+                match child(field::ARGUMENT) {
                     Some(arg) => ExprKind::IncDec {
                         target: Box::new(self.expr(arg, depth + 1)),
                         increment: op_text == "++",
@@ -1227,10 +1274,10 @@ impl Lower<'_> {
                 }
             }
             kind::CAST_EXPRESSION => {
-                let ty = child("type")
+                let ty = child(field::TYPE)
                     .map(|t| self.type_descriptor(t))
                     .unwrap_or(CType::Unknown("?".into()));
-                match child("value") {
+                match child(field::VALUE) {
                     Some(v) => ExprKind::Cast {
                         ty,
                         arg: Box::new(self.expr(v, depth + 1)),
@@ -1239,11 +1286,11 @@ impl Lower<'_> {
                 }
             }
             kind::CALL_EXPRESSION => {
-                let callee = match child("function") {
+                let callee = match child(field::FUNCTION) {
                     Some(f) => self.expr(f, depth + 1),
                     None => return self.opaque(node),
                 };
-                let args = child("arguments")
+                let args = child(field::ARGUMENTS)
                     .map(|a| {
                         named_children(a)
                             .into_iter()
@@ -1258,10 +1305,10 @@ impl Lower<'_> {
                 }
             }
             kind::FIELD_EXPRESSION => {
-                let arrow = child("operator")
+                let arrow = child(field::OPERATOR)
                     .map(|o| self.text(o) == "->")
                     .unwrap_or(false);
-                match (child("argument"), child("field")) {
+                match (child(field::ARGUMENT), child(field::FIELD)) {
                     (Some(base), Some(field)) => ExprKind::Field {
                         base: Box::new(self.expr(base, depth + 1)),
                         arrow,
@@ -1270,7 +1317,7 @@ impl Lower<'_> {
                     _ => ExprKind::Opaque(self.text(node)),
                 }
             }
-            kind::SUBSCRIPT_EXPRESSION => match (child("argument"), child("index")) {
+            kind::SUBSCRIPT_EXPRESSION => match (child(field::ARGUMENT), child(field::INDEX)) {
                 (Some(base), Some(index)) => ExprKind::Index {
                     base: Box::new(self.expr(base, depth + 1)),
                     index: Box::new(self.expr(index, depth + 1)),
@@ -1279,9 +1326,9 @@ impl Lower<'_> {
             },
             kind::CONDITIONAL_EXPRESSION => {
                 match (
-                    child("condition"),
-                    child("consequence"),
-                    child("alternative"),
+                    child(field::CONDITION),
+                    child(field::CONSEQUENCE),
+                    child(field::ALTERNATIVE),
                 ) {
                     (Some(c), Some(t), Some(o)) => ExprKind::Conditional {
                         cond: Box::new(self.expr(c, depth + 1)),
@@ -1296,8 +1343,8 @@ impl Lower<'_> {
                 let mut current = node;
                 for _ in 0..1000 {
                     match (
-                        current.child_by_field_name("left"),
-                        current.child_by_field_name("right"),
+                        field_child(current, field::LEFT),
+                        field_child(current, field::RIGHT),
                     ) {
                         (Some(l), Some(r)) => {
                             items.push(self.expr(l, depth + 1));
@@ -1327,11 +1374,10 @@ impl Lower<'_> {
         if node.kind() != kind::TYPE_DESCRIPTOR {
             return CType::Unknown(self.text(node));
         }
-        let mut ty = node
-            .child_by_field_name("type")
+        let mut ty = field_child(node, field::TYPE)
             .map(|t| self.type_of(t))
             .unwrap_or(CType::Unknown("?".into()));
-        let mut declarator = node.child_by_field_name("declarator");
+        let mut declarator = field_child(node, field::DECLARATOR);
         for _ in 0..16 {
             let Some(d) = declarator else { break };
             match d.kind() {
@@ -1339,7 +1385,7 @@ impl Lower<'_> {
                 kind::ABSTRACT_ARRAY_DECLARATOR => ty = CType::Array(Box::new(ty), None),
                 _ => break,
             }
-            declarator = d.child_by_field_name("declarator");
+            declarator = field_child(d, field::DECLARATOR);
         }
         ty
     }
@@ -1500,6 +1546,17 @@ fn parse_hex_float(text: &str) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn every_field_name_is_one_of_the_grammar() {
+        let language: tree_sitter::Language = tree_sitter_c::LANGUAGE.into();
+        for name in field::NAMES {
+            assert!(
+                language.field_id_for_name(name).is_some(),
+                "`{name}` is not a field of tree-sitter-c"
+            );
+        }
+    }
 
     fn one_function(src: &str) -> Function {
         let ir = parse_file(FileId(0), src.as_bytes());
