@@ -158,61 +158,20 @@ impl Program {
     }
 
     fn collect_writes_and_calls(&mut self) {
-        let mut writes = Vec::new();
-        let mut calls = Vec::new();
-        for (fi, file) in self.files.iter().enumerate() {
-            for (i, f) in file.functions.iter().enumerate() {
-                let fref = FuncRef { file: fi, index: i };
-                // Writes to a function's own plain locals are never asked about (values
-                // come from globals, fields and statics), and most writes are to them.
-                let mut locals = HashSet::new();
-                collect_plain_locals(&f.body, &mut locals);
-                for p in &f.params {
-                    locals.insert(p.name.clone());
-                }
-                let is_local =
-                    |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(n));
-                visit_stmts(&f.body, &mut |e| match &e.kind {
-                    ExprKind::Assign { target, .. } if is_local(target) => {}
-                    ExprKind::IncDec { target, .. } if is_local(target) => {}
-                    ExprKind::Assign { op, target, value } => writes.push(Write {
-                        function: fref,
-                        target: canonical_place(target),
-                        op: *op,
-                        value: (**value).clone(),
-                        span: e.span,
-                    }),
-                    ExprKind::IncDec { target, increment } => writes.push(Write {
-                        function: fref,
-                        target: canonical_place(target),
-                        op: Some(if *increment {
-                            BinaryOp::Add
-                        } else {
-                            BinaryOp::Sub
-                        }),
-                        value: Expr::new(
-                            ExprKind::Int {
-                                value: 1,
-                                unsigned: false,
-                                long: false,
-                            },
-                            e.span,
-                        ),
-                        span: e.span,
-                    }),
-                    ExprKind::Call { callee, args } => {
-                        if let ExprKind::Ident(name) = &callee.kind {
-                            calls.push(CallSite {
-                                caller: fref,
-                                callee: name.clone(),
-                                args: args.clone(),
-                                span: e.span,
-                            });
-                        }
-                    }
-                    _ => {}
-                });
-            }
+        use rayon::prelude::*;
+        // Each file's writes and calls on its own worker, then joined in file order, so
+        // the tables are the same on any number of threads.
+        let per_file: Vec<(Vec<Write>, Vec<CallSite>)> = self
+            .files
+            .par_iter()
+            .enumerate()
+            .map(|(fi, file)| writes_and_calls_of(fi, file))
+            .collect();
+        let mut writes = Vec::with_capacity(per_file.iter().map(|(w, _)| w.len()).sum());
+        let mut calls = Vec::with_capacity(per_file.iter().map(|(_, c)| c.len()).sum());
+        for (w, c) in per_file {
+            writes.extend(w);
+            calls.extend(c);
         }
         for (i, w) in writes.iter().enumerate() {
             self.writes_by_target
@@ -579,6 +538,64 @@ impl Program {
 /// spacing and parentheses are not part of the key.
 pub fn canonical_place(expr: &Expr) -> String {
     expr.to_string()
+}
+
+/// The writes to non-locals and the calls of one file's functions.
+fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) {
+    let mut writes = Vec::new();
+    let mut calls = Vec::new();
+    for (i, f) in file.functions.iter().enumerate() {
+        let fref = FuncRef { file: fi, index: i };
+        // Writes to a function's own plain locals are never asked about (values
+        // come from globals, fields and statics), and most writes are to them.
+        let mut locals = HashSet::new();
+        collect_plain_locals(&f.body, &mut locals);
+        for p in &f.params {
+            locals.insert(p.name.clone());
+        }
+        let is_local = |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(n));
+        visit_stmts(&f.body, &mut |e| match &e.kind {
+            ExprKind::Assign { target, .. } if is_local(target) => {}
+            ExprKind::IncDec { target, .. } if is_local(target) => {}
+            ExprKind::Assign { op, target, value } => writes.push(Write {
+                function: fref,
+                target: canonical_place(target),
+                op: *op,
+                value: (**value).clone(),
+                span: e.span,
+            }),
+            ExprKind::IncDec { target, increment } => writes.push(Write {
+                function: fref,
+                target: canonical_place(target),
+                op: Some(if *increment {
+                    BinaryOp::Add
+                } else {
+                    BinaryOp::Sub
+                }),
+                value: Expr::new(
+                    ExprKind::Int {
+                        value: 1,
+                        unsigned: false,
+                        long: false,
+                    },
+                    e.span,
+                ),
+                span: e.span,
+            }),
+            ExprKind::Call { callee, args } => {
+                if let ExprKind::Ident(name) = &callee.kind {
+                    calls.push(CallSite {
+                        caller: fref,
+                        callee: name.clone(),
+                        args: args.clone(),
+                        span: e.span,
+                    });
+                }
+            }
+            _ => {}
+        });
+    }
+    (writes, calls)
 }
 
 /// The names of a body's non-static local variables.
