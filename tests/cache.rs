@@ -13,26 +13,6 @@ mod common;
 use common::*;
 use std::path::{Path, PathBuf};
 
-fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("fixtures")
-        .join(name)
-}
-
-/// Copies the files (not folders) of `from` into `to`, recursively.
-fn copy_tree(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for entry in std::fs::read_dir(from).unwrap() {
-        let path = entry.unwrap().path();
-        let target = to.join(path.file_name().unwrap());
-        if path.is_dir() {
-            copy_tree(&path, &target);
-        } else {
-            std::fs::copy(&path, &target).unwrap();
-        }
-    }
-}
-
 /// Runs `args` in `dir` with `--cache cache` appended when given; stdout and exit code.
 fn output(dir: &Path, args: &[&str], cache: Option<&Path>) -> (Vec<u8>, Option<i32>) {
     let cache_text;
@@ -162,10 +142,5 @@ fn a_cache_folder_that_cannot_be_made_is_a_clear_error() {
         &["list", "tree", "--cache", "blocker/cache"],
         LIMIT,
     );
-    run.assert_exit(2, "the cache folder cannot be created");
-    assert!(
-        run.stderr.contains("cache"),
-        "the error does not name the cache\n{}",
-        run.context()
-    );
+    assert_refused_naming(&run, "cache", "the cache folder cannot be created");
 }

@@ -201,11 +201,10 @@ fn a_yaml_alias_bomb_is_refused_quickly_with_a_message() {
         spec.push_str(&format!("  {level}: &{level} [{refs}]\n"));
     }
     let run = check_with_spec(&spec);
-    run.assert_exit(2, "a spec that cannot be read is a usage error");
-    assert!(
-        run.stderr.contains("tauscan.yaml"),
-        "the message does not name the spec\n{}",
-        run.context()
+    assert_refused_naming(
+        &run,
+        "tauscan.yaml",
+        "a spec that cannot be read is a usage error",
     );
 }
 
@@ -214,11 +213,10 @@ fn a_deeply_nested_spec_is_refused_with_a_message() {
     let depth = 100_000;
     let spec = format!("smoothers: {}1{}\n", "[".repeat(depth), "]".repeat(depth));
     let run = check_with_spec(&spec);
-    run.assert_exit(2, "a spec that cannot be read is a usage error");
-    assert!(
-        run.stderr.contains("tauscan.yaml"),
-        "the message does not name the spec\n{}",
-        run.context()
+    assert_refused_naming(
+        &run,
+        "tauscan.yaml",
+        "a spec that cannot be read is a usage error",
     );
     let mapping = format!("smoothers:\n{}\n", {
         let mut text = String::new();
@@ -238,11 +236,10 @@ fn a_spec_that_is_not_utf8_or_holds_nul_is_refused_with_a_message() {
         let dir = tree_with_good_sibling();
         write(dir.path(), "root/tauscan.yaml", bytes);
         let run = bounded(dir.path(), &["check", "root"], LIMIT);
-        run.assert_exit(2, "a spec that cannot be read is a usage error");
-        assert!(
-            run.stderr.contains("tauscan.yaml"),
-            "the message does not name the spec\n{}",
-            run.context()
+        assert_refused_naming(
+            &run,
+            "tauscan.yaml",
+            "a spec that cannot be read is a usage error",
         );
     }
 }

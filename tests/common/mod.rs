@@ -274,3 +274,34 @@ pub fn listing(dir: &Path) -> Vec<String> {
     out.sort();
     out
 }
+
+/// A folder under `fixtures/`.
+pub fn fixture(name: &str) -> std::path::PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fixtures")
+        .join(name)
+}
+
+/// Copies the files of `from` into `to`, folders included.
+pub fn copy_tree(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for entry in std::fs::read_dir(from).unwrap() {
+        let path = entry.unwrap().path();
+        let target = to.join(path.file_name().unwrap());
+        if path.is_dir() {
+            copy_tree(&path, &target);
+        } else {
+            std::fs::copy(&path, &target).unwrap();
+        }
+    }
+}
+
+/// A run refused its input with exit status 2 and a message naming `name`.
+pub fn assert_refused_naming(run: &Run, name: &str, why: &str) {
+    run.assert_exit(2, why);
+    assert!(
+        run.stderr.contains(name),
+        "the message does not name {name}\n{}",
+        run.context()
+    );
+}
