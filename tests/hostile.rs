@@ -336,18 +336,34 @@ fn escape_sequences_are_neutralised_in_markdown() {
 
 #[cfg(unix)]
 #[test]
-fn escape_sequences_are_neutralised_in_the_report_and_the_baseline() {
+fn escape_sequences_are_neutralised_in_the_report_the_baseline_and_the_starter_spec() {
     let dir = tree_with_hostile_finding();
     for (args, name) in [
         (&["report", "root", "--out", "out.html"][..], "out.html"),
         (&["report", "root", "--out", "out.md"][..], "out.md"),
         (&["baseline", "root", "-o", "base.json"][..], "base.json"),
+        (&["init", "root", "-o", "init.yaml"][..], "init.yaml"),
     ] {
         let run = bounded(dir.path(), args, LIMIT);
         run.assert_finished();
         let written = std::fs::read(dir.path().join(name))
             .unwrap_or_else(|e| panic!("{name} was not written: {e}\n{}", run.context()));
         assert_no_raw_escape(name, &written, &run);
+        if name == "init.yaml" {
+            // The names are quoted, so the starter spec is still a spec tauscan reads.
+            let reread = bounded(
+                dir.path(),
+                &["check", "root", "--spec", "init.yaml", "--format", "json"],
+                LIMIT,
+            );
+            reread.assert_finished();
+            assert_ne!(
+                reread.code,
+                Some(2),
+                "the starter spec does not load\n{}",
+                reread.context()
+            );
+        }
         assert_no_raw_escape("standard output", &run.stdout, &run);
         assert_no_raw_escape("standard error", &run.stderr_bytes, &run);
     }
