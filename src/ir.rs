@@ -180,9 +180,10 @@ pub struct Expr {
 
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum ExprKind {
-    /// An integer literal: its value and the type its suffix and size give it.
+    /// An integer literal: its value and the type its suffix and size give it. (No C
+    /// integer constant exceeds 64 bits; one that does is not lowered to `Int`.)
     Int {
-        value: u128,
+        value: u64,
         unsigned: bool,
         long: bool,
     },

@@ -1176,7 +1176,7 @@ impl Lower<'_> {
                 let inner = text.trim_matches('\'');
                 match inner.chars().next() {
                     Some(c) if inner.chars().count() == 1 => ExprKind::Int {
-                        value: c as u128,
+                        value: u64::from(c),
                         unsigned: false,
                         long: false,
                     },
@@ -1508,6 +1508,8 @@ fn parse_number(text: &str) -> Option<ExprKind> {
     };
     if !is_float {
         let (value, unsigned, long) = parse_int_literal(&lower)?;
+        // Wider than any C integer type: the constant has no type (C11 6.4.4.1p6).
+        let value = u64::try_from(value).ok()?;
         return Some(ExprKind::Int {
             value,
             unsigned,
@@ -1546,6 +1548,14 @@ fn parse_hex_float(text: &str) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn an_integer_literal_wider_than_64_bits_has_no_value() {
+        // C11 6.4.4.1p6: a constant no integer type can represent has no type.
+        assert!(parse_number("18446744073709551615u").is_some());
+        assert!(parse_number("18446744073709551616").is_none());
+        assert!(parse_number("0x1ffffffffffffffff").is_none());
+    }
 
     #[test]
     fn every_field_name_is_one_of_the_grammar() {

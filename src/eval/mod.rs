@@ -186,7 +186,7 @@ impl<'p> Evaluator<'p> {
                 value,
                 unsigned,
                 long,
-            } => Ok(int_literal(*value, *unsigned, *long, target)),
+            } => Ok(int_literal(u128::from(*value), *unsigned, *long, target)),
             ExprKind::Float { value, single } => Ok(Num::Float {
                 value: if *single {
                     *value as f32 as f64
