@@ -144,3 +144,25 @@ fn a_cache_folder_that_cannot_be_made_is_a_clear_error() {
     );
     assert_refused_naming(&run, "cache", "the cache folder cannot be created");
 }
+
+#[test]
+fn files_with_the_same_bytes_share_one_entry_written_whole() {
+    // Fifty files with the same bytes are one entry, which the parsing threads may write
+    // at the same moment; every later scan must still read it whole.
+    let dir = tempfile::tempdir().unwrap();
+    for i in 0..50 {
+        write(
+            &dir.path().join("tree"),
+            &format!("hub_{i}.c"),
+            "static int y; void hub_tick(int u) { y += (u - y) >> 3; }\n",
+        );
+    }
+    let cache = dir.path().join("cache");
+    let args = ["list", "tree", "--format", "json"];
+    let plain = output(dir.path(), &args, None);
+    for _ in 0..3 {
+        let reading = output(dir.path(), &args, Some(&cache));
+        assert_same("one shared entry", &plain, &reading);
+    }
+    assert_eq!(entries(&cache).len(), 1, "{:?}", entries(&cache));
+}

@@ -51,7 +51,14 @@ pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_else(|| "output".into());
-    let temporary = folder.join(format!(".{name}.tauscan-{}.tmp", std::process::id()));
+    // Unique per process and per call: the parse cache writes from several threads, and
+    // two of them may write the same entry at once.
+    static SERIAL: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+    let serial = SERIAL.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    let temporary = folder.join(format!(
+        ".{name}.tauscan-{}-{serial}.tmp",
+        std::process::id()
+    ));
     let result = (|| {
         let mut file = std::fs::File::create(&temporary)?;
         file.write_all(contents)?;
