@@ -77,6 +77,15 @@ impl FindingLine {
     pub fn counts(&self) -> bool {
         self.suppressed.is_none() && !self.baselined
     }
+
+    /// The lines under the message (see [`crate::report::finding_details`]).
+    pub fn details(&self) -> Vec<String> {
+        crate::report::finding_details(
+            self.help.as_deref(),
+            self.suppressed.as_deref(),
+            self.baselined,
+        )
+    }
 }
 
 /// The verdict of one smoother against the spec.

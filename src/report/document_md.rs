@@ -60,14 +60,8 @@ fn finding_md(f: &FindingLine) -> String {
         out.push_str(&format!(" at {}", cell(&f.place)));
     }
     out.push_str(&format!(": {}", cell(&f.message)));
-    if let Some(help) = &f.help {
-        out.push_str(&format!("  \n  help: {}", cell(help)));
-    }
-    if let Some(reason) = &f.suppressed {
-        out.push_str(&format!("  \n  suppressed in the source: {}", cell(reason)));
-    }
-    if f.baselined {
-        out.push_str("  \n  known from the baseline");
+    for line in f.details() {
+        out.push_str(&format!("  \n  {}", cell(&line)));
     }
     out.push('\n');
     out

@@ -128,14 +128,8 @@ fn finding_html(f: &FindingLine) -> String {
         out.push_str(&format!(" at <code>{}</code>", escape(&f.place)));
     }
     out.push_str(&format!(": {}", escape(&f.message)));
-    if let Some(help) = &f.help {
-        out.push_str(&format!("<br>help: {}", escape(help)));
-    }
-    if let Some(reason) = &f.suppressed {
-        out.push_str(&format!("<br>suppressed in the source: {}", escape(reason)));
-    }
-    if f.baselined {
-        out.push_str("<br>known from the baseline");
+    for line in f.details() {
+        out.push_str(&format!("<br>{}", escape(&line)));
     }
     out.push_str("</li>\n");
     out

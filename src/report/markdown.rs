@@ -125,14 +125,13 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
                 cell(&place),
                 cell(&f.message)
             ));
-            if let Some(help) = &f.help {
-                out.push_str(&format!("  \n  help: {}", cell(help)));
-            }
-            if let Some(reason) = &f.suppressed {
-                out.push_str(&format!("  \n  suppressed: {}", cell(reason)));
-            }
-            if f.baselined {
-                out.push_str("  \n  known from the baseline");
+            let details = crate::report::finding_details(
+                f.help.as_deref(),
+                f.suppressed.as_deref(),
+                f.baselined,
+            );
+            for line in details {
+                out.push_str(&format!("  \n  {}", cell(&line)));
             }
             out.push('\n');
         }

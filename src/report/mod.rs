@@ -40,6 +40,27 @@ pub fn neutral_keep_newlines(text: &str) -> String {
     text.split('\n').map(neutral).collect::<Vec<_>>().join("\n")
 }
 
+/// The lines written under a finding's message in the Markdown and HTML outputs, as plain
+/// text (each output escapes them its own way): its help, the reason of the suppression
+/// that applies, and whether the baseline knows it.
+pub fn finding_details(
+    help: Option<&str>,
+    suppressed: Option<&str>,
+    baselined: bool,
+) -> Vec<String> {
+    let mut lines = Vec::new();
+    if let Some(help) = help {
+        lines.push(format!("help: {help}"));
+    }
+    if let Some(reason) = suppressed {
+        lines.push(format!("suppressed in the source: {reason}"));
+    }
+    if baselined {
+        lines.push("known from the baseline".to_string());
+    }
+    lines
+}
+
 /// Writes `contents` to `path` through a temporary file in the same folder and a rename,
 /// so that a reader never sees a half-written file.
 pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {
