@@ -351,3 +351,28 @@ mod tests {
         );
     }
 }
+
+/// Builders of update trees for the rules' unit tests.
+#[cfg(test)]
+pub mod build {
+    use super::Node;
+    use crate::eval::num::{Num, Target};
+    use crate::ir::{CType, IntType};
+
+    pub fn int_type(bits: u8, signed: bool) -> CType {
+        CType::FixedInt(IntType { bits, signed })
+    }
+    pub fn slot(i: usize) -> Box<Node> {
+        Box::new(Node::Slot(i))
+    }
+    /// A signed `int` constant of the target.
+    pub fn k(v: i128, target: Target) -> Box<Node> {
+        Box::new(Node::Const(Num::int(v, target.int(true))))
+    }
+    pub fn target(int_bits: u8) -> Target {
+        Target {
+            int_bits,
+            has_fpu: false,
+        }
+    }
+}

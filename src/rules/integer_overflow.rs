@@ -530,22 +530,7 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn int_type(bits: u8, signed: bool) -> CType {
-        CType::FixedInt(IntType { bits, signed })
-    }
-    fn slot(i: usize) -> Box<Node> {
-        Box::new(Node::Slot(i))
-    }
-    fn k(v: i128, target: Target) -> Box<Node> {
-        Box::new(Node::Const(Num::int(v, target.int(true))))
-    }
-    fn target(int_bits: u8) -> Target {
-        Target {
-            int_bits,
-            has_fpu: false,
-        }
-    }
+    use crate::recognise::sim::build::{int_type, k, slot, target};
 
     /// `y = (y * 15 + u) / 16` over `ty` state and input.
     fn weighted(ty: CType, t: Target, widen: Option<CType>) -> Update {

@@ -149,27 +149,14 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::eval::num::{Num, Target};
+    use crate::eval::num::Target;
     use crate::ir::{CType, IntType};
     use crate::recognise::sim::Node;
 
+    use crate::recognise::sim::build::{int_type, k, slot, target};
+
     fn unsigned(bits: u8) -> CType {
-        CType::FixedInt(IntType {
-            bits,
-            signed: false,
-        })
-    }
-    fn slot(i: usize) -> Box<Node> {
-        Box::new(Node::Slot(i))
-    }
-    fn k(v: i128, target: Target) -> Box<Node> {
-        Box::new(Node::Const(Num::int(v, target.int(true))))
-    }
-    fn target(int_bits: u8) -> Target {
-        Target {
-            int_bits,
-            has_fpu: false,
-        }
+        int_type(bits, false)
     }
     fn names() -> Vec<String> {
         vec!["y".into(), "u".into()]
