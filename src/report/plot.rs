@@ -185,6 +185,45 @@ fn plot_error(e: impl std::fmt::Display) -> String {
     format!("the plot could not be drawn: {e}")
 }
 
+/// Draws one curve of a plot in `colour`, with its legend entry.
+fn draw_curve<'a, X, Y>(
+    chart: &mut ChartContext<'a, SVGBackend<'a>, Cartesian2d<X, Y>>,
+    points: Vec<(f64, f64)>,
+    label: &str,
+    colour: RGBColor,
+) -> Result<(), String>
+where
+    X: Ranged<ValueType = f64>,
+    Y: Ranged<ValueType = f64>,
+{
+    let style = colour.stroke_width(2);
+    chart
+        .draw_series(LineSeries::new(points, style))
+        .map_err(plot_error)?
+        .label(label)
+        .legend(move |(lx, ly)| PathElement::new([(lx, ly), (lx + 18, ly)], style));
+    Ok(())
+}
+
+/// Draws the legend box of a plot at `position`.
+fn draw_legend<'a, X, Y>(
+    chart: &mut ChartContext<'a, SVGBackend<'a>, Cartesian2d<X, Y>>,
+    position: SeriesLabelPosition,
+) -> Result<(), String>
+where
+    X: Ranged<ValueType = f64>,
+    Y: Ranged<ValueType = f64>,
+{
+    chart
+        .configure_series_labels()
+        .position(position)
+        .background_style(WHITE.mix(0.9))
+        .border_style(MARK_COLOUR)
+        .label_font(("sans-serif", 12))
+        .draw()
+        .map_err(plot_error)
+}
+
 /// The step response plot as an SVG document, or why it could not be drawn.
 pub fn step_svg(input: &PlotInput) -> Result<String, String> {
     let rate = usable(input.rate);
@@ -288,25 +327,13 @@ pub fn step_svg(input: &PlotInput) -> Result<String, String> {
 
         let colours = [STAGE_COLOUR, CASCADE_COLOUR];
         for ((curve, points), colour) in input.curves.iter().zip(&series).zip(colours) {
-            let style = colour.stroke_width(2);
             let drawn: Vec<(f64, f64)> = thinned(points)
                 .into_iter()
                 .map(|(k, y)| (x_of(k), y))
                 .collect();
-            chart
-                .draw_series(LineSeries::new(drawn, style))
-                .map_err(plot_error)?
-                .label(curve.label.clone())
-                .legend(move |(lx, ly)| PathElement::new([(lx, ly), (lx + 18, ly)], style));
+            draw_curve(&mut chart, drawn, &curve.label, colour)?;
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(MARK_COLOUR)
-            .label_font(("sans-serif", 12))
-            .draw()
-            .map_err(plot_error)?;
+        draw_legend(&mut chart, SeriesLabelPosition::LowerRight)?;
         root.present().map_err(plot_error)?;
     }
     Ok(svg)
@@ -402,13 +429,8 @@ pub fn magnitude_svg(input: &PlotInput) -> Result<String, String> {
 
         let colours = [STAGE_COLOUR, CASCADE_COLOUR];
         for ((curve, points), colour) in input.curves.iter().zip(&series).zip(colours) {
-            let style = colour.stroke_width(2);
             let drawn: Vec<(f64, f64)> = points.iter().map(|&(f, db)| (x_of(f), db)).collect();
-            chart
-                .draw_series(LineSeries::new(drawn, style))
-                .map_err(plot_error)?
-                .label(curve.label.clone())
-                .legend(move |(lx, ly)| PathElement::new([(lx, ly), (lx + 18, ly)], style));
+            draw_curve(&mut chart, drawn, &curve.label, colour)?;
             // The cutoff of this curve, from the figures, not read off the curve.
             if let Some(w) = curve.figures.cutoff {
                 let x = x_of(w.0 / TAU);
@@ -436,14 +458,7 @@ pub fn magnitude_svg(input: &PlotInput) -> Result<String, String> {
                     .map_err(plot_error)?;
             }
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerLeft)
-            .background_style(WHITE.mix(0.9))
-            .border_style(MARK_COLOUR)
-            .label_font(("sans-serif", 12))
-            .draw()
-            .map_err(plot_error)?;
+        draw_legend(&mut chart, SeriesLabelPosition::LowerLeft)?;
         root.present().map_err(plot_error)?;
     }
     Ok(svg)
