@@ -31,7 +31,8 @@ impl Cache {
         })
     }
 
-    fn entry(&self, bytes: &[u8]) -> PathBuf {
+    /// The entry for a file with these bytes (the bytes are hashed once, here).
+    pub fn entry(&self, bytes: &[u8]) -> Entry {
         let mut hasher = Sha256::new();
         hasher.update(LAYOUT);
         hasher.update(build_id());
@@ -39,34 +40,36 @@ impl Cache {
         hasher.update(bytes);
         let digest = hasher.finalize();
         let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
-        self.dir.join(&hex[..2]).join(format!("{}.ir", &hex[2..]))
+        Entry(self.dir.join(&hex[..2]).join(format!("{}.ir", &hex[2..])))
     }
 
-    /// The IR of a file with these bytes, as file `file` of this scan, when the cache has
-    /// a readable entry for it.
-    pub fn load(&self, file: FileId, bytes: &[u8]) -> Option<FileIr> {
-        let stored = std::fs::read(self.entry(bytes)).ok()?;
+    /// The IR stored in `entry`, as file `file` of this scan, when it is there and reads.
+    pub fn load(&self, entry: &Entry, file: FileId) -> Option<FileIr> {
+        let stored = std::fs::read(&entry.0).ok()?;
         let mut ir: FileIr =
             crate::ir::with_file_id(file, || postcard::from_bytes(&stored)).ok()?;
         ir.file = file;
         Some(ir)
     }
 
-    /// Stores the IR of a file with these bytes. Failures (a full disk, a read-only
-    /// folder) only mean a slower next scan, so they are not reported.
-    pub fn store(&self, bytes: &[u8], ir: &FileIr) {
+    /// Stores `ir` in `entry`. Failures (a full disk, a read-only folder) only mean a
+    /// slower next scan, so they are not reported.
+    pub fn store(&self, entry: &Entry, ir: &FileIr) {
         let Ok(encoded) = postcard::to_stdvec(ir) else {
             return;
         };
-        let path = self.entry(bytes);
-        if let Some(folder) = path.parent() {
+        if let Some(folder) = entry.0.parent() {
             if std::fs::create_dir_all(folder).is_err() {
                 return;
             }
         }
-        let _ = crate::report::write_atomically(&path, &encoded);
+        let _ = crate::report::write_atomically(&entry.0, &encoded);
     }
 }
+
+/// Where the IR of one file's bytes is kept in a cache folder.
+#[derive(Debug, Clone)]
+pub struct Entry(PathBuf);
 
 /// The identity of the running build: tauscan's version and the running executable's
 /// path, size and modification time, so that an entry written by another build (another
@@ -117,15 +120,15 @@ mod tests {
         let cache = Cache::open(dir.path()).unwrap_or_else(|e| panic!("{e}"));
         let source = b"static int y;\nvoid f(int u) { y += (u - y) >> 3; }\n";
         let ir = crate::parse::parse_file(FileId(3), source);
-        cache.store(source, &ir);
+        cache.store(&cache.entry(source), &ir);
         let back = cache
-            .load(FileId(7), source)
+            .load(&cache.entry(source), FileId(7))
             .unwrap_or_else(|| panic!("no entry"));
         assert_eq!(back.file, FileId(7));
         let fresh = crate::parse::parse_file(FileId(7), source);
         assert_eq!(format!("{back:?}"), format!("{fresh:?}"));
         // Other bytes are another entry.
-        assert!(cache.load(FileId(7), b"int x;\n").is_none());
+        assert!(cache.load(&cache.entry(b"int x;\n"), FileId(7)).is_none());
     }
 
     #[test]
@@ -133,10 +136,10 @@ mod tests {
         let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("{e}"));
         let cache = Cache::open(dir.path()).unwrap_or_else(|e| panic!("{e}"));
         let source = b"static float y;\nvoid f(float u) { y += 0.1f * (u - y); }\n";
-        cache.store(source, &crate::parse::parse_file(FileId(0), source));
-        let path = cache.entry(source);
-        let stored = std::fs::read(&path).unwrap_or_else(|e| panic!("{e}"));
-        std::fs::write(&path, &stored[..stored.len() / 2]).unwrap_or_else(|e| panic!("{e}"));
-        assert!(cache.load(FileId(0), source).is_none());
+        let entry = cache.entry(source);
+        cache.store(&entry, &crate::parse::parse_file(FileId(0), source));
+        let stored = std::fs::read(&entry.0).unwrap_or_else(|e| panic!("{e}"));
+        std::fs::write(&entry.0, &stored[..stored.len() / 2]).unwrap_or_else(|e| panic!("{e}"));
+        assert!(cache.load(&entry, FileId(0)).is_none());
     }
 }

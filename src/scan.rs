@@ -35,11 +35,12 @@ fn lower(id: FileId, bytes: &[u8], cache: Option<&Cache>) -> FileIr {
     let Some(cache) = cache else {
         return crate::parse::parse_file(id, bytes);
     };
-    if let Some(ir) = cache.load(id, bytes) {
+    let entry = cache.entry(bytes);
+    if let Some(ir) = cache.load(&entry, id) {
         return ir;
     }
     let ir = crate::parse::parse_file(id, bytes);
-    cache.store(bytes, &ir);
+    cache.store(&entry, &ir);
     ir
 }
 
