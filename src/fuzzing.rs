@@ -31,10 +31,19 @@ fn evaluate_all(data: &[u8]) {
         Some((d, e)) => (d, e),
         None => ("", text.as_ref()),
     };
+    let parsed = crate::parse::parse_file(FileId(0), definitions.as_bytes());
+    let mut names: Vec<String> = parsed.macros.iter().map(|m| m.name.clone()).collect();
+    names.extend(parsed.globals.iter().map(|g| g.decl.name.clone()));
+    let mut exprs = Vec::new();
+    if let Some(e) = crate::parse::parse_expression(expression, Span::default()) {
+        exprs.push(e);
+    }
+    exprs.extend(
+        names
+            .iter()
+            .filter_map(|n| crate::parse::parse_expression(n, Span::default())),
+    );
     for int_bits in [32, 16] {
-        let ir = crate::parse::parse_file(FileId(0), definitions.as_bytes());
-        let mut names: Vec<String> = ir.macros.iter().map(|m| m.name.clone()).collect();
-        names.extend(ir.globals.iter().map(|g| g.decl.name.clone()));
         let options = ProgramOptions {
             target: Target {
                 int_bits,
@@ -42,16 +51,7 @@ fn evaluate_all(data: &[u8]) {
             },
             ..ProgramOptions::default()
         };
-        let program = Program::build(vec![ir], vec!["fuzz.c".into()], options);
-        let mut exprs = Vec::new();
-        if let Some(e) = crate::parse::parse_expression(expression, Span::default()) {
-            exprs.push(e);
-        }
-        exprs.extend(
-            names
-                .iter()
-                .filter_map(|n| crate::parse::parse_expression(n, Span::default())),
-        );
+        let program = Program::build(vec![parsed.clone()], vec!["fuzz.c".into()], options);
         for e in &exprs {
             for real in [false, true] {
                 let mut ev = Evaluator::new(&program);
