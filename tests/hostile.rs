@@ -54,6 +54,8 @@ fn one_hundred_thousand_nested_parentheses_do_not_crash() {
     write(dir.path(), "root/deep.c", source);
     let run = bounded(dir.path(), &["list", "root", "--format", "json"], LIMIT);
     run.assert_exit(0, "deep nesting is limited, not fatal");
+    // What the limit left unread is said, not passed over in silence.
+    run.assert_note_on("deep.c");
     assert_sibling_reported(&run);
 }
 
