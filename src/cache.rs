@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
 /// Bumped when the entry layout changes in a way the build's identity would not show.
-const LAYOUT: &[u8] = b"tauscan-ir-cache-1";
+const LAYOUT: &[u8] = b"tauscan-ir-cache-2";
 
 /// A cache folder, ready to use.
 #[derive(Debug, Clone)]

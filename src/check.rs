@@ -86,7 +86,11 @@ fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
     let reached = propagate::rates(&scan.program, spec);
     let mut effective = Vec::new();
     for s in &mut scan.recognition.smoothers {
-        let from_spec = reached.get(&s.function_ref).cloned().unwrap_or_default();
+        let from_spec = s
+            .function_ref
+            .and_then(|f| reached.get(&f))
+            .cloned()
+            .unwrap_or_default();
         match from_spec.as_slice() {
             [] => {
                 // A constant the spec declares as a rate, found in the derivation.

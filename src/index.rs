@@ -43,7 +43,54 @@ pub struct ProgramOptions {
     pub target: Target,
     /// `-D NAME=VALUE` (or `-D NAME`, which means 1).
     pub defines: BTreeMap<String, String>,
+    /// The defines describe a whole build (a compilation database): a name defined
+    /// nowhere is undefined. Otherwise it may come from the build system, and code under
+    /// it is still read for smoothers.
+    pub complete_defines: bool,
 }
+
+/// A three-valued truth: what a preprocessor condition is known to be.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Tri {
+    True,
+    False,
+    Unknown,
+}
+
+impl Tri {
+    pub fn negate(self) -> Tri {
+        match self {
+            Tri::True => Tri::False,
+            Tri::False => Tri::True,
+            Tri::Unknown => Tri::Unknown,
+        }
+    }
+    pub fn and(self, other: Tri) -> Tri {
+        match (self, other) {
+            (Tri::False, _) | (_, Tri::False) => Tri::False,
+            (Tri::True, Tri::True) => Tri::True,
+            _ => Tri::Unknown,
+        }
+    }
+    pub fn or(self, other: Tri) -> Tri {
+        match (self, other) {
+            (Tri::True, _) | (_, Tri::True) => Tri::True,
+            (Tri::False, Tri::False) => Tri::False,
+            _ => Tri::Unknown,
+        }
+    }
+}
+
+/// A macro body parsed once: as an expression, as statements, or neither.
+#[derive(Debug, Clone)]
+pub enum MacroBody {
+    Expr(Expr),
+    Stmts(Vec<Stmt>),
+    Neither,
+}
+
+/// A macro definition by position: file index and index within the file.
+pub type MacroRef = (usize, usize);
 
 pub struct Program {
     pub files: Vec<FileIr>,
@@ -71,6 +118,18 @@ pub struct Program {
     calls_by_callee: HashMap<String, Vec<usize>>,
     /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
     calls_by_address_arg: HashMap<String, Vec<usize>>,
+    /// Whether each macro name is defined with the active defines (computed once).
+    defined: HashMap<String, bool>,
+    /// What each macro name is known to be (defined, undefined, or either).
+    defined_tri: HashMap<String, Tri>,
+    /// The files each file's `#include`s name, resolved to files of the scan.
+    includes: Vec<Vec<usize>>,
+    /// Each file's include closure (itself and what it includes, transitively), on first use.
+    closures: Vec<std::sync::OnceLock<Vec<usize>>>,
+    /// Every macro body parsed as statements or an expression, on first use.
+    macro_bodies: HashMap<MacroRef, std::sync::OnceLock<MacroBody>>,
+    /// `#if` texts already judged (three-valued).
+    pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
 }
 
 impl Program {
@@ -94,6 +153,12 @@ impl Program {
             calls: Vec::new(),
             calls_by_callee: HashMap::new(),
             calls_by_address_arg: HashMap::new(),
+            defined: HashMap::new(),
+            defined_tri: HashMap::new(),
+            includes: Vec::new(),
+            closures: Vec::new(),
+            macro_bodies: HashMap::new(),
+            pp_cache: std::sync::RwLock::new(HashMap::new()),
         };
         for (fi, file) in program.files.iter().enumerate() {
             for (i, m) in file.macros.iter().enumerate() {
@@ -138,6 +203,14 @@ impl Program {
                     .push(FuncRef { file: fi, index: i });
             }
         }
+        program.compute_definedness();
+        program.resolve_includes();
+        program.macro_bodies = program
+            .macros
+            .values()
+            .flatten()
+            .map(|&r| (r, std::sync::OnceLock::new()))
+            .collect();
         let mut active = HashMap::new();
         for refs in program.macros.values() {
             for &(fi, i) in refs {
@@ -258,23 +331,23 @@ impl Program {
 
     /// The definition of a macro that the active defines select, if any.
     pub fn active_macro(&self, name: &str) -> Option<&MacroDef> {
-        let refs = self.macros.get(name)?;
-        refs.iter()
-            .rev()
-            .find(|r| self.macro_active.get(r).copied().unwrap_or(false))
-            .map(|&(fi, i)| &self.files[fi].macros[i])
+        self.macro_for(name, None).map(|(_, m)| m)
     }
 
-    /// The active object-like macro of this name with its body parsed as an expression
-    /// (None when the body is not an expression). Parsed once, on first use.
-    pub fn macro_expr(&self, name: &str) -> Option<(&MacroDef, Option<&Expr>)> {
-        let refs = self.macros.get(name)?;
-        let r = refs
-            .iter()
-            .rev()
-            .find(|r| self.macro_active.get(r).copied().unwrap_or(false))?;
-        let m = &self.files[r.0].macros[r.1];
-        let cell = self.macro_exprs.get(r)?;
+    /// The active definition a use in `file` sees (see `macro_for`).
+    pub fn active_macro_in(&self, name: &str, file: Option<usize>) -> Option<&MacroDef> {
+        self.macro_for(name, file).map(|(_, m)| m)
+    }
+
+    /// The active object-like macro of this name that a use in `file` sees, with its body
+    /// parsed as an expression (None when the body is not an expression). Parsed once.
+    pub fn macro_expr(
+        &self,
+        name: &str,
+        file: Option<usize>,
+    ) -> Option<(&MacroDef, Option<&Expr>)> {
+        let (r, m) = self.macro_for(name, file)?;
+        let cell = self.macro_exprs.get(&r)?;
         let expr = cell
             .get_or_init(|| crate::parse::parse_expression(&m.body, m.span))
             .as_ref();
@@ -386,6 +459,43 @@ impl Program {
         current
     }
 
+    /// Whether a name is a type (a typedef of the program or a C or `stdint.h` name).
+    pub fn is_type_name(&self, name: &str) -> bool {
+        self.typedefs.contains_key(name)
+            || !matches!(
+                crate::parse::type_from_name(name),
+                CType::Named(_) | CType::Unknown(_)
+            )
+    }
+
+    /// `(name) * x`, `(name) - x`, `(name) + x`, `(name) & x` are read by the C grammar
+    /// as casts when it cannot know that `name` is not a type; when it is not, they are
+    /// the binary operation (the common spelling of a parenthesised macro parameter or
+    /// variable).
+    pub fn cast_as_binary<'e>(
+        &self,
+        ty: &CType,
+        arg: &'e Expr,
+    ) -> Option<(BinaryOp, String, &'e Expr)> {
+        let CType::Named(name) = ty else {
+            return None;
+        };
+        if self.is_type_name(name) {
+            return None;
+        }
+        let ExprKind::Unary { op, arg: inner } = &arg.kind else {
+            return None;
+        };
+        let op = match op {
+            UnaryOp::Deref => BinaryOp::Mul,
+            UnaryOp::Neg => BinaryOp::Sub,
+            UnaryOp::Plus => BinaryOp::Add,
+            UnaryOp::AddrOf => BinaryOp::BitAnd,
+            _ => return None,
+        };
+        Some((op, name.clone(), inner))
+    }
+
     /// The fields of a struct type (after typedefs), if known.
     pub fn struct_fields(&self, ty: &CType) -> Option<&[Param]> {
         match self.resolve_type(ty) {
@@ -480,11 +590,444 @@ impl Program {
     }
 
     fn is_defined(&self, name: &str) -> bool {
-        self.options.defines.contains_key(name)
-            || self.macros.get(name).is_some_and(|refs| {
+        self.options.defines.contains_key(name) || self.defined.get(name).copied().unwrap_or(false)
+    }
+
+    /// Works out, once, which macro names are defined: by a definition whose own branch is
+    /// built (a header's include guard, a configuration header's `#ifndef` defaults), and
+    /// what each is known to be when unknown names may come from the build.
+    fn compute_definedness(&mut self) {
+        let names: Vec<String> = self.macros.keys().cloned().collect();
+        let mut defined = HashMap::new();
+        let mut tri = HashMap::new();
+        // An include guard (`#ifndef X` / `#define X` around a header) is undefined where
+        // its header is read for the first time, which is where every use of the header's
+        // contents stands: its `#ifndef` holds.
+        for name in &names {
+            let Some(refs) = self.macros.get(name) else {
+                continue;
+            };
+            let guard = refs.iter().all(|&(fi, i)| {
+                self.files[fi].macros[i]
+                    .condition
+                    .levels
+                    .iter()
+                    .any(|l| match &l.branch {
+                        CondBranch::Ifndef(n) => n == name,
+                        CondBranch::If(text) => {
+                            let t: String = text.chars().filter(|c| !c.is_whitespace()).collect();
+                            t == format!("!defined({name})") || t == format!("!defined{name}")
+                        }
+                        _ => false,
+                    })
+            });
+            if guard {
+                defined.insert(name.clone(), false);
+                tri.insert(name.clone(), Tri::False);
+            }
+        }
+        for name in &names {
+            let mut visiting = Vec::new();
+            self.defined_rec(name, &mut visiting, &mut defined, 0);
+            let mut visiting = Vec::new();
+            self.defined_tri_rec(name, &mut visiting, &mut tri, 0);
+        }
+        self.defined = defined;
+        self.defined_tri = tri;
+    }
+
+    fn defined_rec(
+        &self,
+        name: &str,
+        visiting: &mut Vec<String>,
+        memo: &mut HashMap<String, bool>,
+        depth: u32,
+    ) -> bool {
+        if self.options.defines.contains_key(name) {
+            return true;
+        }
+        if let Some(v) = memo.get(name) {
+            return *v;
+        }
+        // While a name's own definitions are being judged it counts as undefined: that is
+        // what an include guard (`#ifndef X` / `#define X`) means on first inclusion.
+        if depth > 32 || visiting.iter().any(|v| v == name) {
+            return false;
+        }
+        let Some(refs) = self.macros.get(name) else {
+            return false;
+        };
+        visiting.push(name.to_string());
+        let mut result = false;
+        for &(fi, i) in refs {
+            let cond = self.files[fi].macros[i].condition.clone();
+            let holds = cond.levels.iter().all(|level| {
+                level
+                    .earlier
+                    .iter()
+                    .all(|b| !self.branch_holds_with(b, visiting, memo, depth + 1))
+                    && (level.branch == CondBranch::Else
+                        || self.branch_holds_with(&level.branch, visiting, memo, depth + 1))
+            });
+            if holds {
+                result = true;
+                break;
+            }
+        }
+        visiting.pop();
+        memo.insert(name.to_string(), result);
+        result
+    }
+
+    fn branch_holds_with(
+        &self,
+        branch: &CondBranch,
+        visiting: &mut Vec<String>,
+        memo: &mut HashMap<String, bool>,
+        depth: u32,
+    ) -> bool {
+        match branch {
+            CondBranch::Ifdef(n) => self.defined_rec(n, visiting, memo, depth),
+            CondBranch::Ifndef(n) => !self.defined_rec(n, visiting, memo, depth),
+            CondBranch::Else => true,
+            CondBranch::If(text) => {
+                let replaced = replace_defined(text, |n| {
+                    self.defined_rec(n, &mut visiting.clone(), memo, depth)
+                });
+                let mut seen = HashSet::new();
+                let expanded = self.expand_pp_identifiers(&replaced, &mut seen, 0);
+                crate::parse::parse_expression(&expanded, Span::default())
+                    .and_then(|e| pp_eval(&e))
+                    .is_some_and(|v| v != 0)
+            }
+        }
+    }
+
+    fn defined_tri_rec(
+        &self,
+        name: &str,
+        visiting: &mut Vec<String>,
+        memo: &mut HashMap<String, Tri>,
+        depth: u32,
+    ) -> Tri {
+        if self.options.defines.contains_key(name) {
+            return Tri::True;
+        }
+        if let Some(v) = memo.get(name) {
+            return *v;
+        }
+        if depth > 32 || visiting.iter().any(|v| v == name) {
+            return Tri::False;
+        }
+        let Some(refs) = self.macros.get(name) else {
+            return self.undefined_name();
+        };
+        visiting.push(name.to_string());
+        let mut result = Tri::False;
+        for &(fi, i) in refs {
+            let cond = self.files[fi].macros[i].condition.clone();
+            let here = self.condition_tri_by(&cond, &mut |n| {
+                self.defined_tri_rec(n, visiting, memo, depth + 1)
+            });
+            result = result.or(here);
+            if result == Tri::True {
+                break;
+            }
+        }
+        visiting.pop();
+        memo.insert(name.to_string(), result);
+        result
+    }
+
+    /// What a name defined nowhere in the scan is: undefined in a complete build, else
+    /// possibly defined by the build system.
+    fn undefined_name(&self) -> Tri {
+        if self.options.complete_defines {
+            Tri::False
+        } else {
+            Tri::Unknown
+        }
+    }
+
+    /// What a macro name is known to be, once the program is built.
+    fn defined_tri_of(&self, name: &str) -> Tri {
+        if self.options.defines.contains_key(name) {
+            return Tri::True;
+        }
+        match self.defined_tri.get(name) {
+            Some(t) => *t,
+            None if self.macros.contains_key(name) => Tri::Unknown,
+            None => self.undefined_name(),
+        }
+    }
+
+    fn condition_tri_by(&self, cond: &Condition, defined: &mut dyn FnMut(&str) -> Tri) -> Tri {
+        let mut all = Tri::True;
+        for level in &cond.levels {
+            for b in &level.earlier {
+                all = all.and(self.branch_tri_by(b, defined).negate());
+            }
+            if level.branch != CondBranch::Else {
+                all = all.and(self.branch_tri_by(&level.branch, defined));
+            }
+            if all == Tri::False {
+                return all;
+            }
+        }
+        all
+    }
+
+    fn branch_tri_by(&self, branch: &CondBranch, defined: &mut dyn FnMut(&str) -> Tri) -> Tri {
+        match branch {
+            CondBranch::Ifdef(n) => defined(n),
+            CondBranch::Ifndef(n) => defined(n).negate(),
+            CondBranch::Else => Tri::True,
+            CondBranch::If(text) => {
+                if let Ok(cache) = self.pp_cache.read() {
+                    if let Some(t) = cache.get(text) {
+                        return *t;
+                    }
+                }
+                let t = self.pp_tri(text, defined);
+                if !self.defined_tri.is_empty() {
+                    if let Ok(mut cache) = self.pp_cache.write() {
+                        cache.insert(text.clone(), t);
+                    }
+                }
+                t
+            }
+        }
+    }
+
+    /// An `#if` expression, three-valued: known true, known false, or depending on names
+    /// the scan cannot know (left to the build).
+    fn pp_tri(&self, text: &str, defined: &mut dyn FnMut(&str) -> Tri) -> Tri {
+        let replaced = replace_defined_tri(text, |n| match defined(n) {
+            Tri::True => Some(true),
+            Tri::False => Some(false),
+            Tri::Unknown => None,
+        });
+        let expanded = map_identifiers(&replaced, |ident| {
+            if ident == "__tauscan_unknown" {
+                return None;
+            }
+            if let Some(v) = self.options.defines.get(ident) {
+                return Some(format!("({})", if v.is_empty() { "1" } else { v }));
+            }
+            let def = self.macros.get(ident).and_then(|refs| {
                 refs.iter()
-                    .any(|&(fi, i)| self.files[fi].macros[i].condition.is_unconditional())
-            })
+                    .map(|&(fi, i)| &self.files[fi].macros[i])
+                    .find(|m| m.condition.is_unconditional() && m.params.is_none())
+            });
+            if let Some(m) = def {
+                let mut seen = HashSet::new();
+                return Some(format!(
+                    "({})",
+                    self.expand_pp_identifiers(&m.body, &mut seen, 1)
+                ));
+            }
+            match defined(ident) {
+                Tri::False => Some("0".into()),
+                _ => Some("__tauscan_unknown".into()),
+            }
+        });
+        let Some(expr) = crate::parse::parse_expression(&expanded, Span::default()) else {
+            return Tri::Unknown;
+        };
+        match pp_eval_tri(&expr) {
+            Some(v) => {
+                if v != 0 {
+                    Tri::True
+                } else {
+                    Tri::False
+                }
+            }
+            None => Tri::Unknown,
+        }
+    }
+
+    /// Whether code under a condition may be built: false only for a branch known not to
+    /// be (`#if 0`, the `#else` of a branch known taken, a name known undefined in a
+    /// complete build). Code that may be built is read for smoothers, so an audit sees
+    /// every board's and every option's filters.
+    pub fn condition_possible(&self, cond: &Condition) -> bool {
+        self.condition_tri(cond) != Tri::False
+    }
+
+    /// What a condition is known to be.
+    pub fn condition_tri(&self, cond: &Condition) -> Tri {
+        if cond.is_unconditional() {
+            return Tri::True;
+        }
+        self.condition_tri_by(cond, &mut |n| self.defined_tri_of(n))
+    }
+
+    /// One `#if` branch's condition, three-valued.
+    pub fn branch_tri(&self, branch: &CondBranch) -> Tri {
+        self.branch_tri_by(branch, &mut |n| self.defined_tri_of(n))
+    }
+
+    /// Resolves each file's `#include` paths to files of the scan: the file of that path
+    /// relative to the including file's folder first, else the one whose path ends with
+    /// it (the shortest such path).
+    fn resolve_includes(&mut self) {
+        let mut by_name: HashMap<&str, Vec<usize>> = HashMap::new();
+        for (i, p) in self.paths.iter().enumerate() {
+            let base = p.rsplit('/').next().unwrap_or(p);
+            by_name.entry(base).or_default().push(i);
+        }
+        let mut includes = Vec::with_capacity(self.files.len());
+        for (fi, file) in self.files.iter().enumerate() {
+            let dir = self
+                .paths
+                .get(fi)
+                .and_then(|p| p.rsplit_once('/').map(|(d, _)| d.to_string()))
+                .unwrap_or_default();
+            let mut out = Vec::new();
+            for inc in &file.includes {
+                if !self.condition_possible_simple(&inc.condition) {
+                    continue;
+                }
+                let wanted = inc.path.trim_start_matches("./");
+                let base = wanted.rsplit('/').next().unwrap_or(wanted);
+                let Some(cands) = by_name.get(base) else {
+                    continue;
+                };
+                let joined = if dir.is_empty() {
+                    wanted.to_string()
+                } else {
+                    format!("{dir}/{wanted}")
+                };
+                let pick = cands
+                    .iter()
+                    .find(|&&c| self.paths[c] == joined)
+                    .or_else(|| {
+                        cands
+                            .iter()
+                            .filter(|&&c| {
+                                let p = &self.paths[c];
+                                p == wanted || p.ends_with(&format!("/{wanted}"))
+                            })
+                            .min_by_key(|&&c| self.paths[c].len())
+                    });
+                if let Some(&c) = pick {
+                    if c != fi && !out.contains(&c) {
+                        out.push(c);
+                    }
+                }
+            }
+            includes.push(out);
+        }
+        self.closures = (0..self.files.len())
+            .map(|_| std::sync::OnceLock::new())
+            .collect();
+        self.includes = includes;
+    }
+
+    fn condition_possible_simple(&self, cond: &Condition) -> bool {
+        // Before definedness is known everything may be built; after, the real answer.
+        cond.is_unconditional() || self.defined_tri.is_empty() || self.condition_possible(cond)
+    }
+
+    /// The files a file sees: itself and everything it includes, transitively (at most a
+    /// few thousand files; a breadth-first walk in include order).
+    pub fn include_closure(&self, file: usize) -> &[usize] {
+        let Some(cell) = self.closures.get(file) else {
+            return &[];
+        };
+        cell.get_or_init(|| {
+            let mut seen = vec![file];
+            let mut queue = std::collections::VecDeque::from([file]);
+            while let Some(f) = queue.pop_front() {
+                for &next in self.includes.get(f).map(Vec::as_slice).unwrap_or(&[]) {
+                    if !seen.contains(&next) {
+                        seen.push(next);
+                        queue.push_back(next);
+                        if seen.len() > 4096 {
+                            return seen;
+                        }
+                    }
+                }
+            }
+            seen
+        })
+    }
+
+    /// The definition of a macro that a use in `file` sees: an active one in the file or
+    /// what it includes first (board headers that define the same name differently are
+    /// told apart by which one the file includes), else any active one.
+    pub fn macro_for(&self, name: &str, file: Option<usize>) -> Option<(MacroRef, &MacroDef)> {
+        let refs = self.macros.get(name)?;
+        let active = |r: &&MacroRef| self.macro_active.get(*r).copied().unwrap_or(false);
+        if let Some(f) = file {
+            let closure = self.include_closure(f);
+            if refs.len() > 1 {
+                // Every file the use sees, nearest first: the last active definition in
+                // the nearest file that has one.
+                for inc in closure {
+                    if let Some(r) = refs.iter().filter(active).rev().find(|r| r.0 == *inc) {
+                        return Some((*r, &self.files[r.0].macros[r.1]));
+                    }
+                }
+            }
+        }
+        let r = refs.iter().rev().find(active)?;
+        Some((*r, &self.files[r.0].macros[r.1]))
+    }
+
+    /// A macro definition by its reference.
+    pub fn macro_def(&self, r: MacroRef) -> &MacroDef {
+        &self.files[r.0].macros[r.1]
+    }
+
+    /// Every macro definition, with its reference, in file order.
+    pub fn all_macros(&self) -> impl Iterator<Item = (MacroRef, &MacroDef)> + '_ {
+        self.files
+            .iter()
+            .enumerate()
+            .flat_map(|(fi, f)| f.macros.iter().enumerate().map(move |(i, m)| ((fi, i), m)))
+    }
+
+    /// A macro's body parsed once: as one expression when it is one, else as statements.
+    pub fn macro_body(&self, r: MacroRef) -> &MacroBody {
+        static NEITHER: MacroBody = MacroBody::Neither;
+        let Some(cell) = self.macro_bodies.get(&r) else {
+            return &NEITHER;
+        };
+        cell.get_or_init(|| {
+            let m = &self.files[r.0].macros[r.1];
+            if m.body.trim().is_empty() || m.body.contains('#') {
+                return MacroBody::Neither;
+            }
+            // Every parameter in parentheses of its own: `(a) * (x)` with `a` alone in
+            // parentheses reads as a cast to a type `a` in C's grammar; `((a)) * (x)` does
+            // not. The parentheses leave no trace in the IR.
+            let wrapped = match &m.params {
+                Some(params) if !params.is_empty() => map_identifiers(&m.body, |ident| {
+                    params
+                        .iter()
+                        .any(|p| p == ident)
+                        .then(|| format!("({ident})"))
+                }),
+                _ => m.body.clone(),
+            };
+            let body = wrapped.trim();
+            let looks_like_statements = body.ends_with(';')
+                || body.starts_with('{')
+                || body.starts_with("do")
+                || body.starts_with("if")
+                || body.starts_with("for")
+                || body.starts_with("while");
+            if !looks_like_statements {
+                if let Some(e) = crate::parse::parse_expression(body, m.span) {
+                    return MacroBody::Expr(e);
+                }
+            }
+            match crate::parse::parse_statements(body, m.span) {
+                Some(stmts) => MacroBody::Stmts(stmts),
+                None => MacroBody::Neither,
+            }
+        })
     }
 
     fn branch_holds(&self, branch: &CondBranch) -> bool {
@@ -752,7 +1295,7 @@ pub fn map_identifiers(text: &str, mut f: impl FnMut(&str) -> Option<String>) ->
     out
 }
 
-fn replace_defined(text: &str, is_defined: impl Fn(&str) -> bool) -> String {
+fn replace_defined(text: &str, mut is_defined: impl FnMut(&str) -> bool) -> String {
     // `defined NAME` and `defined ( NAME )` become 1 or 0 before any other expansion.
     let tokens: Vec<char> = text.chars().collect();
     let mut out = String::new();
@@ -791,6 +1334,89 @@ fn replace_defined(text: &str, is_defined: impl Fn(&str) -> bool) -> String {
         i += 1;
     }
     out
+}
+
+/// `defined NAME` replaced by 1, 0, or an unknown marker.
+fn replace_defined_tri(text: &str, mut is_defined: impl FnMut(&str) -> Option<bool>) -> String {
+    let tokens: Vec<char> = text.chars().collect();
+    let mut out = String::new();
+    let mut i = 0;
+    while i < tokens.len() {
+        let rest: String = tokens[i..].iter().take(7).collect();
+        let boundary = i == 0 || !(tokens[i - 1].is_ascii_alphanumeric() || tokens[i - 1] == '_');
+        if boundary && rest == "defined" {
+            let mut j = i + 7;
+            while j < tokens.len() && tokens[j].is_whitespace() {
+                j += 1;
+            }
+            let paren = j < tokens.len() && tokens[j] == '(';
+            if paren {
+                j += 1;
+            }
+            while j < tokens.len() && tokens[j].is_whitespace() {
+                j += 1;
+            }
+            let start = j;
+            while j < tokens.len() && (tokens[j].is_ascii_alphanumeric() || tokens[j] == '_') {
+                j += 1;
+            }
+            let name: String = tokens[start..j].iter().collect();
+            if paren {
+                while j < tokens.len() && tokens[j] != ')' {
+                    j += 1;
+                }
+                j += 1;
+            }
+            out.push_str(match is_defined(&name) {
+                Some(true) => " 1 ",
+                Some(false) => " 0 ",
+                None => " __tauscan_unknown ",
+            });
+            i = j;
+            continue;
+        }
+        out.push(tokens[i]);
+        i += 1;
+    }
+    out
+}
+
+/// `#if` arithmetic where `__tauscan_unknown` is a value nobody knows: `0 && unknown` is 0,
+/// `1 || unknown` is 1, anything else that reads it is unknown (None).
+fn pp_eval_tri(expr: &Expr) -> Option<i128> {
+    match &expr.kind {
+        ExprKind::Ident(name) if name == "__tauscan_unknown" => None,
+        ExprKind::Binary {
+            op: BinaryOp::And,
+            lhs,
+            rhs,
+        } => match (pp_eval_tri(lhs), pp_eval_tri(rhs)) {
+            (Some(0), _) | (_, Some(0)) => Some(0),
+            (Some(_), Some(_)) => Some(1),
+            _ => None,
+        },
+        ExprKind::Binary {
+            op: BinaryOp::Or,
+            lhs,
+            rhs,
+        } => match (pp_eval_tri(lhs), pp_eval_tri(rhs)) {
+            (Some(a), _) if a != 0 => Some(1),
+            (_, Some(b)) if b != 0 => Some(1),
+            (Some(_), Some(_)) => Some(0),
+            _ => None,
+        },
+        _ => {
+            let mut unknown = false;
+            expr.walk(&mut |e| {
+                unknown |= matches!(&e.kind, ExprKind::Ident(n) if n == "__tauscan_unknown")
+            });
+            if unknown {
+                None
+            } else {
+                pp_eval(expr)
+            }
+        }
+    }
 }
 
 /// Integer evaluation for `#if` (C11 6.10.1: all arithmetic in intmax_t).

@@ -767,6 +767,16 @@ pub struct FileIr {
     pub problems: Vec<ParseProblem>,
     /// `tauscan:` comments: (line, text after the marker), for tags and suppressions.
     pub tags: Vec<(u32, String)>,
+    /// `#include` directives, in order.
+    pub includes: Vec<Include>,
+}
+
+/// One `#include` directive: the path as written (without quotes or brackets).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Include {
+    pub path: String,
+    pub line: u32,
+    pub condition: Condition,
 }
 
 /// Something in a file the lowering could not read; data for the report, not an error.

@@ -259,6 +259,7 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
                 .unwrap_or_else(|| PathBuf::from(c))
         })
     });
+    let complete_defines = database.is_some();
     if let Some(db_path) = database {
         let text = std::fs::read_to_string(&db_path).with_context(|| {
             format!("cannot read the compilation database {}", db_path.display())
@@ -309,6 +310,7 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
                 has_fpu: spec.fpu.unwrap_or(true),
             },
             defines,
+            complete_defines,
         },
         recognise: RecogniseOptions { default_rate_hz },
         exclude,

@@ -21,6 +21,7 @@ mod kind {
     pub const PREPROC_IFDEF: &str = "preproc_ifdef";
     pub const PREPROC_ELSE: &str = "preproc_else";
     pub const PREPROC_ELIF: &str = "preproc_elif";
+    pub const PREPROC_INCLUDE: &str = "preproc_include";
     pub const FUNCTION_DEFINITION: &str = "function_definition";
     pub const DECLARATION: &str = "declaration";
     pub const TYPE_DEFINITION: &str = "type_definition";
@@ -103,7 +104,8 @@ mod field {
     pub const TYPE: usize = 19;
     pub const UPDATE: usize = 20;
     pub const VALUE: usize = 21;
-    pub const NAMES: [&str; 22] = [
+    pub const PATH: usize = 22;
+    pub const NAMES: [&str; 23] = [
         "alternative",
         "argument",
         "arguments",
@@ -126,6 +128,7 @@ mod field {
         "type",
         "update",
         "value",
+        "path",
     ];
 }
 
@@ -323,7 +326,7 @@ fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
     Some(function.body)
 }
 
-fn relocate_stmts(stmts: &mut [Stmt], anchor: Span) {
+pub fn relocate_stmts(stmts: &mut [Stmt], anchor: Span) {
     for stmt in stmts {
         relocate_stmt(stmt, anchor);
     }
@@ -535,6 +538,7 @@ impl Lower<'_> {
         match node.kind() {
             kind::PREPROC_DEF => self.macro_def(node, cond, false),
             kind::PREPROC_FUNCTION_DEF => self.macro_def(node, cond, true),
+            kind::PREPROC_INCLUDE => self.include(node, cond),
             kind::PREPROC_IF | kind::PREPROC_IFDEF => {
                 for (branch_cond, items) in self.preproc_branches(node, cond) {
                     for item in items {
@@ -633,6 +637,28 @@ impl Lower<'_> {
             });
         }
         result
+    }
+
+    /// `#include "x.h"` or `#include <x.h>`: the path as written, for macro visibility.
+    fn include(&mut self, node: Node, cond: &Condition) {
+        let Some(path) = field_child(node, field::PATH) else {
+            return;
+        };
+        let text = self.text(path);
+        let trimmed = text
+            .trim()
+            .trim_start_matches(['"', '<'])
+            .trim_end_matches(['"', '>'])
+            .to_string();
+        if trimmed.is_empty() {
+            return;
+        }
+        let span = self.span(node);
+        self.ir.includes.push(Include {
+            path: trimmed,
+            line: span.line,
+            condition: cond.clone(),
+        });
     }
 
     fn macro_def(&mut self, node: Node, cond: &Condition, function_like: bool) {

@@ -98,12 +98,23 @@ pub struct Evaluator<'p> {
     pub real_arithmetic: bool,
     pub chain: Vec<ChainStep>,
     pub flags: Flags,
+    /// The file whose includes decide which definition of a macro is meant: the file of
+    /// the innermost scope with a function.
+    file: Option<usize>,
     depth: u32,
     steps: u32,
     active: Vec<String>,
 }
 
 impl<'p> Evaluator<'p> {
+    /// An evaluator whose macro names are seen from `file` (for a macro body read on its
+    /// own, with no function around it).
+    pub fn in_file(program: &'p Program, file: usize) -> Evaluator<'p> {
+        let mut e = Evaluator::new(program);
+        e.file = Some(file);
+        e
+    }
+
     pub fn new(program: &'p Program) -> Evaluator<'p> {
         Evaluator {
             program,
@@ -111,6 +122,7 @@ impl<'p> Evaluator<'p> {
             real_arithmetic: false,
             chain: Vec::new(),
             flags: Flags::default(),
+            file: None,
             depth: 0,
             steps: 0,
             active: Vec::new(),
@@ -160,7 +172,12 @@ impl<'p> Evaluator<'p> {
             return Err(Unknown::new("definitions nest too deeply"));
         }
         self.depth += 1;
+        let outer_file = self.file;
+        if let Some(f) = scope.function {
+            self.file = Some(f.file);
+        }
         let result = self.eval_inner(expr, scope);
+        self.file = outer_file;
         self.depth -= 1;
         result
     }
@@ -232,6 +249,16 @@ impl<'p> Evaluator<'p> {
                 Ok(out.value)
             }
             ExprKind::Cast { ty, arg } => {
+                if let Some((op, name, inner)) = self.program.cast_as_binary(ty, arg) {
+                    let a = self.ident(&name, expr.span, scope)?;
+                    let b = self.eval(inner, scope)?;
+                    let out = num::binary(op, a, b, target)?;
+                    self.note(out.signed_overflow, out.unsigned_wrap);
+                    if out.signed_overflow {
+                        return Err(overflowed(expr));
+                    }
+                    return Ok(out.value);
+                }
                 let v = self.eval(arg, scope)?;
                 let ty = self.program.resolve_type(ty);
                 Ok(v.convert(&ty, target))
@@ -290,7 +317,32 @@ impl<'p> Evaluator<'p> {
     fn ident(&mut self, name: &str, span: Span, scope: &Scope) -> Result<Num, Unknown> {
         if let Some(e) = scope.exprs.get(name) {
             let e = e.clone();
-            return self.guarded(format!("local {name}"), |ev| ev.eval(&e, scope));
+            // A local temporary with a known value: a step of the derivation, at the local's
+            // declaration when there is one.
+            let declared = scope
+                .function
+                .and_then(|f| find_local(self.program.function(f), name))
+                .map(|d| {
+                    let written = match &d.init {
+                        Some(Initializer::Expr(init)) => init.to_string(),
+                        _ => e.to_string(),
+                    };
+                    let prefix = if d.is_const { "const " } else { "" };
+                    (
+                        d.span.file,
+                        d.span.line,
+                        format!("{prefix}{} {} = {written}", d.ty, d.name),
+                    )
+                });
+            return self.guarded(format!("local {name}"), |ev| {
+                let step = declared
+                    .map(|(file, line, text)| ev.record_named(file, line, text, Some(name)));
+                let v = ev.eval(&e, scope);
+                if let Some(step) = step {
+                    ev.fill(step, &v);
+                }
+                v
+            });
         }
         if let Some(f) = scope.function {
             let function = self.program.function(f);
@@ -339,7 +391,7 @@ impl<'p> Evaluator<'p> {
             }
             _ => self
                 .program
-                .macro_expr(name)
+                .macro_expr(name, self.file)
                 .map(|(m, e)| (m.clone(), e.cloned())),
         };
         if let Some((m, body)) = chosen {
@@ -360,7 +412,7 @@ impl<'p> Evaluator<'p> {
                 v
             });
         }
-        if self.program.active_macro(name).is_some() {
+        if self.program.active_macro_in(name, self.file).is_some() {
             // A function-like macro named without arguments.
             return Err(Unknown::new(format!("`{name}` is a function-like macro")));
         } else if self.program.is_macro(name) {
@@ -695,7 +747,7 @@ impl<'p> Evaluator<'p> {
         if let Some(v) = self.math_call(name, args, scope)? {
             return Ok(v);
         }
-        if let Some(m) = self.program.active_macro(name) {
+        if let Some(m) = self.program.active_macro_in(name, self.file) {
             if let Some(params) = &m.params {
                 let m = m.clone();
                 let params = params.clone();
@@ -866,6 +918,11 @@ fn push_unique(values: &mut Vec<Num>, v: Num) {
     if !values.contains(&v) {
         values.push(v);
     }
+}
+
+/// Whether `name` is a C math function the evaluator computes (`expf`, `sqrt`...).
+pub fn is_math_function(name: &str) -> bool {
+    is_math(name) || name.strip_suffix('f').is_some_and(is_math)
 }
 
 fn is_math(name: &str) -> bool {

@@ -187,17 +187,28 @@ fn step_parts(program: &Program, s: &Smoother, step: &ChainStep) -> Option<StepP
             name,
             rhs,
             ty: Some(ty),
-            scopes: vec![Scope::default(), Scope::in_function(s.function_ref)],
+            scopes: vec![
+                Scope::default(),
+                Scope {
+                    function: s.function_ref,
+                    ..Scope::default()
+                },
+            ],
         });
     }
     // A declaration with an initialiser: a local of the smoother's function, or a global.
-    let function = program.function(s.function_ref);
-    if let Some(local) = eval::find_local(function, &name) {
+    let local = s
+        .function_ref
+        .and_then(|f| eval::find_local(program.function(f), &name));
+    if let Some(local) = local {
         return Some(StepParts {
             name,
             rhs,
             ty: Some(program.resolve_type(&local.ty)),
-            scopes: vec![Scope::in_function(s.function_ref)],
+            scopes: vec![Scope {
+                function: s.function_ref,
+                ..Scope::default()
+            }],
         });
     }
     let global = program.global(&name)?;
@@ -287,12 +298,15 @@ fn chain_truncations(program: &Program, s: &Smoother) -> (Vec<Truncation>, Vec<T
 /// initialisers of the function's locals that the update names (a `const float a = 1/8;`
 /// inside the function is read through the locals, not recorded as a step of the chain).
 fn update_truncations(program: &Program, s: &Smoother) -> Vec<Truncation> {
-    let Some(update) = crate::parse::parse_expression(&s.update, s.span) else {
+    let Some(update) = s.update_expr.clone() else {
         return Vec::new();
     };
     let mut places: Vec<String> = s.inputs.clone();
     places.push(s.state.clone());
-    let scope = Scope::in_function(s.function_ref);
+    let scope = Scope {
+        function: s.function_ref,
+        ..Scope::default()
+    };
     let mut divisions = Vec::new();
     update.walk(&mut |e| {
         if let ExprKind::Binary {
@@ -309,7 +323,9 @@ fn update_truncations(program: &Program, s: &Smoother) -> Vec<Truncation> {
         }
     });
     let mut found = Vec::new();
-    let function = program.function(s.function_ref);
+    let Some(function) = s.function_ref.map(|f| program.function(f)) else {
+        return found;
+    };
     let mut names: Vec<String> = Vec::new();
     update.walk(&mut |e| {
         if let ExprKind::Ident(n) = &e.kind {

@@ -70,7 +70,10 @@ fn visit_loops(stmts: &[Stmt], f: &mut LoopVisitor) {
 
 /// What the state starts from on each call, as C text, and where it is declared.
 fn start_of(program: &Program, s: &Smoother) -> (String, Option<Span>) {
-    let function = program.function(s.function_ref);
+    let Some(f) = s.function_ref else {
+        return ("its declaration".into(), None);
+    };
+    let function = program.function(f);
     match crate::eval::find_local(function, &s.state) {
         Some(decl) => match &decl.init {
             Some(Initializer::Expr(e)) => (format!("`{e}`"), Some(decl.span)),
@@ -90,7 +93,8 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
         if s.storage != Storage::Local {
             continue;
         }
-        let function = program.function(s.function_ref);
+        let Some(f) = s.function_ref else { continue };
+        let function = program.function(f);
         if in_loop(&function.body, s.span) {
             continue;
         }

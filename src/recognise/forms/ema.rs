@@ -1,0 +1,88 @@
+//! The exponential moving average with its state in output units: `y += a*(u - y)`,
+//! `y = a*u + (1-a)*y`, `y = (y*(N-1) + u)/N`, `y += (u - y) >> k`, Q15 products, and
+//! every reordering of them.
+//!
+//! When the input weights sum to alpha identically (the weights are written so that a
+//! constant input comes out unchanged) the update is a smoother whatever the coefficient's
+//! value: unknown, out of range (listed for `coefficient-out-of-range`), or truncated to
+//! zero by C arithmetic. When they do not, the numbers decide: an alpha between 0 and 2
+//! with a finite gain is listed with its DC gain (`dc-gain-not-one` reports it); unknown
+//! weights that do not sum to alpha are a different recursion (a leaky integrator with an
+//! independent gain, a rotation), not a smoother.
+
+use super::super::judge::Reading;
+use super::super::values::Node;
+use super::super::Form;
+use super::Verdict;
+use crate::context;
+
+/// None when the reading is a recursion that is never a smoother, whatever its numbers.
+pub fn reject(r: &Reading) -> Option<()> {
+    let g = r.g();
+    let file = r.walk.graph.home_info(r.walk.home).file;
+    // A weight that shrinks with a sample counter makes a cumulative mean, not a smoother
+    // with a time constant (`m += (u - m) / n` with `n++`).
+    let counter = r.weight_atoms().iter().any(|&a| {
+        let leaves = match &r.affine.atoms[a as usize] {
+            super::super::affine::AtomKind::Leaf(v) => vec![*v],
+            super::super::affine::AtomKind::Inverse(v, _) => vec![*v],
+            super::super::affine::AtomKind::Pow2 { .. } => Vec::new(),
+        };
+        leaves.iter().any(|&v| {
+            // A place stepped by a constant somewhere (`n++`), read here directly or as
+            // what this body just stored into it (`n++; m += (u - m) / n;`).
+            g.any_within(
+                v,
+                &|x| {
+                    let x = g.strip_aliases(x);
+                    g.is_place(x) && r.program.is_counter(&g.display(x, 200), file)
+                },
+                500,
+            ) || matches!(g.node(g.strip_aliases(v)), Node::Opaque { .. }) && {
+                // A local counter: `n` stepped by one in this body.
+                let name = g.display(v, 60);
+                r.walk.candidates.iter().any(|c| {
+                    matches!(g.node(c.state), Node::Opaque { .. }) && g.display(c.state, 60) == name
+                })
+            }
+        })
+    });
+    if counter {
+        return None;
+    }
+    Some(())
+}
+
+pub fn judge(r: &Reading) -> Option<Verdict> {
+    let a = &r.affine;
+    if a.structural {
+        // A coefficient that is not a finite number has no filter to describe.
+        if r.alpha.is_some_and(|x| !x.is_finite()) {
+            return None;
+        }
+        let mut v = Verdict::new(Form::Ema);
+        v.dc_gain = match (r.alpha, r.input_weight) {
+            (Some(alpha), Some(w)) if alpha != 0.0 => Some(w / alpha),
+            _ => Some(1.0),
+        };
+        return Some(v);
+    }
+    // Weights that do not sum to alpha: only numbers can say what it is.
+    let (alpha, w) = (r.alpha?, r.input_weight?);
+    if !(alpha > 0.0 && alpha < 2.0) || w == 0.0 || !w.is_finite() {
+        return None;
+    }
+    // An input weighted by the time step is being integrated, even when the numbers
+    // happen to sum to one (`pos = 0.995*pos + vel*DT` with DT = 0.005).
+    let step_weighted = a.inputs.iter().any(|(_, wp)| {
+        wp.atoms()
+            .iter()
+            .any(|&x| context::is_time_step_name(&r.atom_text(x)))
+    });
+    if step_weighted {
+        return None;
+    }
+    let mut v = Verdict::new(Form::Ema);
+    v.dc_gain = Some(w / alpha);
+    Some(v)
+}

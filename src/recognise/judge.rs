@@ -1,0 +1,822 @@
+//! Judges a candidate update: is it a smoother, and what are its coefficient, form and
+//! dead band?
+//!
+//! The affine reading (`affine`) says how the new value depends on the state and the
+//! inputs; the atoms that are neither (coefficient names, macro constants, fields set in
+//! init functions) are evaluated where the update stands (`eval`), in the home of each atom
+//! (a filter function's own names are looked up in its file). Each form has its judge in
+//! `forms/`; this file gathers what they all need (`Reading`) and builds the output record.
+//! Integer forms are compiled and run (`sim`) to measure the dead band.
+
+use super::affine::{self, Affine, AtomKind, Shift};
+use super::forms::{self, Verdict};
+use super::poly::{AtomId, Poly};
+use super::sim;
+use super::values::{Graph, Node, V};
+use super::walk::{Candidate, StateKind, WalkResult};
+use super::{Arithmetic, Coefficient, Form, RecogniseOptions, Smoother, Storage, Variant};
+use crate::context;
+use crate::eval::{self, num::Num, ChainStep, Evaluator, Scope};
+use crate::index::{FuncRef, Program};
+use crate::ir::*;
+use std::cell::RefCell;
+use std::collections::HashMap;
+
+/// What every form's judge reads: the candidate, its affine reading, and the values of the
+/// atoms where the update stands.
+pub struct Reading<'a> {
+    pub program: &'a Program,
+    pub walk: &'a WalkResult,
+    pub candidate: &'a Candidate,
+    pub affine: Affine,
+    /// Value of each atom (NaN where unknown; inputs and the state are unknown here).
+    pub values: Vec<f64>,
+    /// Every atom the weights use has a known value.
+    pub known: bool,
+    pub alpha: Option<f64>,
+    /// The sum of the input weights.
+    pub input_weight: Option<f64>,
+    pub unknown: Vec<eval::Unknown>,
+    pub chain: Vec<ChainStep>,
+    pub state_type: Option<CType>,
+}
+
+impl Reading<'_> {
+    pub fn g(&self) -> &Graph {
+        &self.walk.graph
+    }
+
+    pub fn weight(&self, w: &Poly) -> f64 {
+        w.evaluate(&|a| self.values[a as usize])
+    }
+
+    /// The atoms the weights (alpha and the input weights) are made of.
+    pub fn weight_atoms(&self) -> Vec<AtomId> {
+        let mut all: Vec<AtomId> = self.affine.alpha.atoms();
+        for (_, w) in &self.affine.inputs {
+            all.extend(w.atoms());
+        }
+        all.sort_unstable();
+        all.dedup();
+        all
+    }
+
+    pub fn function(&self) -> Option<FuncRef> {
+        home_function(self.walk, self.walk.home)
+    }
+
+    /// The atom as C text.
+    pub fn atom_text(&self, a: AtomId) -> String {
+        atom_text(&self.walk.graph, &self.affine.atoms[a as usize])
+    }
+}
+
+pub fn atom_text(g: &Graph, atom: &AtomKind) -> String {
+    match atom {
+        AtomKind::Leaf(v) => g.display(*v, 120),
+        AtomKind::Inverse(v, _) => format!("1/({})", g.display(*v, 120)),
+        AtomKind::Pow2 { count, negative } => {
+            format!(
+                "2^{}({})",
+                if *negative { "-" } else { "" },
+                g.display(*count, 60)
+            )
+        }
+    }
+}
+
+fn home_function(walk: &WalkResult, home: super::values::Home) -> Option<FuncRef> {
+    walk.graph.home_info(home).function
+}
+
+/// The home (function) whose names an atom is made of: that of the first name in it.
+fn home_of(g: &Graph, v: V, default: super::values::Home) -> super::values::Home {
+    let mut stack = vec![v];
+    let mut seen = 0;
+    while let Some(x) = stack.pop() {
+        seen += 1;
+        if seen > 200 {
+            break;
+        }
+        match g.node(x) {
+            Node::Name { home, .. }
+            | Node::Opaque { home, .. }
+            | Node::LocalObject { home, .. } => return *home,
+            Node::Local { home, .. } => return *home,
+            _ => stack.extend(g.children(x)),
+        }
+    }
+    default
+}
+
+/// An atom as an IR expression for the evaluator, with the locals it names given their
+/// values in the scope (so the derivation shows them), in the function of its home.
+pub fn atom_scope(walk: &WalkResult, v: V, span: Span) -> Option<(Expr, Scope)> {
+    let g = &walk.graph;
+    let home = home_of(g, v, walk.home);
+    let function = home_function(walk, home).or(home_function(walk, walk.home));
+    // Locals that appear with one version only are kept as names.
+    let mut versions: HashMap<String, Vec<V>> = HashMap::new();
+    let mut stack = vec![v];
+    let mut seen = std::collections::HashSet::new();
+    while let Some(x) = stack.pop() {
+        if !seen.insert(x) || seen.len() > 4000 {
+            continue;
+        }
+        if let Node::Local { name, .. } = g.node(x) {
+            let list = versions.entry(g.name(*name).to_string()).or_default();
+            if !list.contains(&x) {
+                list.push(x);
+            }
+        }
+        stack.extend(g.children(x));
+    }
+    let mut exprs = HashMap::new();
+    for (name, list) in &versions {
+        if list.len() == 1 {
+            if let Node::Local { value, .. } = g.node(list[0]) {
+                if let Some(e) = g.to_expr(*value, span, true, 4000) {
+                    exprs.insert(name.clone(), e);
+                }
+            }
+        }
+    }
+    let expr = g
+        .to_expr(v, span, false, 4000)
+        .or_else(|| g.to_expr(v, span, true, 4000))?;
+    Some((
+        expr,
+        Scope {
+            function,
+            values: HashMap::new(),
+            exprs,
+        },
+    ))
+}
+
+/// Evaluates one graph value where the walk stands.
+pub fn eval_value(
+    ev: &mut Evaluator,
+    walk: &WalkResult,
+    v: V,
+    span: Span,
+) -> Result<Num, eval::Unknown> {
+    let Some((expr, scope)) = atom_scope(walk, v, span) else {
+        return Err(eval::Unknown::new(format!(
+            "`{}` is too large to evaluate",
+            walk.graph.display(v, 60)
+        )));
+    };
+    ev.eval(&expr, &scope)
+}
+
+fn new_evaluator<'p>(program: &'p Program, walk: &WalkResult) -> Evaluator<'p> {
+    match home_function(walk, walk.home) {
+        Some(_) => Evaluator::new(program),
+        None => Evaluator::in_file(program, walk.graph.home_info(walk.home).file),
+    }
+}
+
+/// How the counts of shifts are read: constant and defined for the left operand (C11
+/// 6.5.7p3), or not known.
+fn shift_of(
+    program: &Program,
+    walk: &WalkResult,
+    ev: &RefCell<Evaluator>,
+    span: Span,
+    lhs: V,
+    count: V,
+) -> Shift {
+    let Ok(c) = ev
+        .try_borrow_mut()
+        .map_err(|_| ())
+        .and_then(|mut e| eval_value(&mut e, walk, count, span).map_err(|_| ()))
+    else {
+        return Shift::NotKnown;
+    };
+    let c = c.as_f64();
+    let bits = promoted_bits(program, walk, lhs, span);
+    if c.fract() == 0.0 && (0.0..f64::from(bits)).contains(&c) {
+        Shift::Count(c)
+    } else {
+        Shift::NotKnown
+    }
+}
+
+fn promoted_bits(program: &Program, walk: &WalkResult, v: V, span: Span) -> u8 {
+    let g = &walk.graph;
+    let function = home_function(walk, home_of(g, v, walk.home));
+    match g.to_expr(v, span, true, 2000) {
+        Some(e) => eval::promoted_bits(program, function, &e),
+        None => program.options.target.int_bits,
+    }
+}
+
+/// The values of the atoms, with what could not be known and the derivation.
+fn evaluate_atoms(
+    r_program: &Program,
+    walk: &WalkResult,
+    c: &Candidate,
+    aff: &Affine,
+    ev: &mut Evaluator,
+) -> (Vec<f64>, Vec<eval::Unknown>) {
+    let g = &walk.graph;
+    let input_ids: Vec<AtomId> = aff.inputs.iter().map(|(a, _)| *a).collect();
+    let mut leaves = vec![f64::NAN; aff.atoms.len()];
+    let mut unknown = Vec::new();
+    for (i, kind) in aff.atoms.iter().enumerate() {
+        let id = i as AtomId;
+        if id == aff.state_atom || input_ids.contains(&id) {
+            continue;
+        }
+        match kind {
+            AtomKind::Leaf(v) => match eval_value(ev, walk, *v, c.span) {
+                Ok(n) => leaves[i] = n.as_f64(),
+                Err(u) => unknown.push(u),
+            },
+            AtomKind::Pow2 { count, negative } => {
+                let bits = promoted_bits(r_program, walk, *count, c.span);
+                match eval_value(ev, walk, *count, c.span) {
+                    Ok(n) => {
+                        let n = n.as_f64();
+                        if n.fract() == 0.0 && (0.0..f64::from(bits)).contains(&n) {
+                            leaves[i] = 2f64.powf(if *negative { -n } else { n });
+                        } else {
+                            unknown.push(eval::Unknown::new(format!(
+                                "the shift by `{}` ({n}) is not defined for a {bits}-bit operand (C11 6.5.7p3)",
+                                g.display(*count, 60)
+                            )));
+                        }
+                    }
+                    Err(u) => unknown.push(u),
+                }
+            }
+            AtomKind::Inverse(..) => {}
+        }
+    }
+    let mut values = affine::atom_values(&aff.atoms, &leaves);
+    // A denominator that is zero where the update stands has no quotient in C (C11
+    // 6.5.5p5): the coefficient is unknown, not infinite.
+    for (i, kind) in aff.atoms.iter().enumerate() {
+        if let AtomKind::Inverse(v, _) = kind {
+            if values[i].is_infinite() {
+                values[i] = f64::NAN;
+                unknown.push(eval::Unknown::new(format!(
+                    "`1/({})` divides by zero (undefined, C11 6.5.5p5)",
+                    g.display(*v, 60)
+                )));
+            }
+        }
+    }
+    (values, unknown)
+}
+
+/// Judges candidate `i` of a walk.
+pub fn judge(
+    program: &Program,
+    walk: &WalkResult,
+    i: usize,
+    options: &RecogniseOptions,
+) -> Option<Smoother> {
+    let c = &walk.candidates[i];
+    let storage = storage_of(program, walk, c)?;
+    if let Some(r) = &c.resummed {
+        let verdict = forms::resummed::judge(program, walk, c, r)?;
+        return Some(build_plain(program, walk, c, verdict, storage, options));
+    }
+    let ev = RefCell::new(new_evaluator(program, walk));
+    let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
+    let aff = affine::read(&walk.graph, c.value, c.state, &shift)?;
+    let mut evaluator = ev.into_inner();
+    let (values, unknown) = evaluate_atoms(program, walk, c, &aff, &mut evaluator);
+    let state_type = state_type(program, walk, c);
+    let mut reading = Reading {
+        program,
+        walk,
+        candidate: c,
+        affine: aff,
+        values,
+        known: false,
+        alpha: None,
+        input_weight: None,
+        unknown,
+        chain: std::mem::take(&mut evaluator.chain),
+        state_type,
+    };
+    let weight_atoms = reading.weight_atoms();
+    reading.known = weight_atoms
+        .iter()
+        .all(|a| reading.values[*a as usize].is_finite());
+    if reading.known {
+        let values = &reading.values;
+        let a = reading.affine.alpha.evaluate(&|x| values[x as usize]);
+        reading.alpha = a.is_finite().then_some(a);
+        let w: f64 = reading
+            .affine
+            .inputs
+            .iter()
+            .map(|(_, w)| w.evaluate(&|x| values[x as usize]))
+            .sum();
+        reading.input_weight = w.is_finite().then_some(w);
+    }
+    let verdict = forms::moving_average::judge(&reading).or_else(|| {
+        // Alpha zero as written (the state's weight is exactly one) is an integrator or
+        // an accumulator, never a smoother: only a coefficient that C arithmetic
+        // truncates to zero (`float a = 1/8;`) is a smoother with a hazard.
+        if reading.affine.alpha.is_zero() {
+            return None;
+        }
+        forms::ema::reject(&reading)?;
+        forms::scaled_state::judge(&reading).or_else(|| forms::ema::judge(&reading))
+    })?;
+    Some(build(reading, verdict, storage, options))
+}
+
+/// Where the state lives, which decides whether it survives between calls. None for a
+/// state that is a local object updated once (a one-shot computation).
+fn storage_of(program: &Program, walk: &WalkResult, c: &Candidate) -> Option<Storage> {
+    let g = &walk.graph;
+    match c.kind {
+        StateKind::LoopLocal => return Some(Storage::LoopLocal),
+        StateKind::RestartLocal => return Some(Storage::Local),
+        StateKind::Recurrence => return Some(Storage::ArrayElement),
+        StateKind::Place => {}
+    }
+    let (root, root_home, local_object) = g.place_root(c.state)?;
+    if local_object {
+        if c.in_loop {
+            return Some(Storage::LoopLocal);
+        }
+        // A local object filled by a call before the update and handed to a call after
+        // it: its state lives where the calls keep it (a getter/setter round trip).
+        let before = walk
+            .escapes
+            .iter()
+            .any(|(s, seq)| *s == root && *seq < c.seq);
+        let after = walk
+            .escapes
+            .iter()
+            .any(|(s, seq)| *s == root && *seq > c.seq);
+        return (before && after).then_some(Storage::Field);
+    }
+    let function = home_function(walk, root_home);
+    let is_param = function.is_some_and(|f| {
+        program
+            .function(f)
+            .params
+            .iter()
+            .any(|p| p.name == g.name(root))
+    });
+    Some(match g.node(c.state) {
+        Node::Name { .. } => {
+            if walk.static_locals.contains(&root) && c.instance.is_none() {
+                Storage::StaticLocal
+            } else {
+                Storage::Global
+            }
+        }
+        Node::Field { arrow, .. } => {
+            if *arrow && is_param {
+                Storage::Pointer
+            } else {
+                Storage::Field
+            }
+        }
+        Node::Index { .. } => Storage::ArrayElement,
+        Node::Deref(_) => Storage::Pointer,
+        _ => Storage::Global,
+    })
+}
+
+fn state_type(program: &Program, walk: &WalkResult, c: &Candidate) -> Option<CType> {
+    let g = &walk.graph;
+    let function = home_function(walk, walk.home);
+    if let Some(e) = &c.state_expr {
+        if let Some(t) = eval::place_type(program, function, e) {
+            return Some(t);
+        }
+    }
+    let home = home_of(g, c.state, walk.home);
+    let f = home_function(walk, home).or(function);
+    let e = g.to_expr(c.state, c.span, true, 2000)?;
+    eval::place_type(program, f, &e)
+}
+
+/// Fixed point: a product with an integer constant brought back by a shift of 8 or more.
+fn arithmetic_of(g: &Graph, state_type: &Option<CType>, value: V) -> Arithmetic {
+    let mut has_float = false;
+    let mut fixed = false;
+    let mut stack = vec![value];
+    let mut seen = std::collections::HashSet::new();
+    while let Some(v) = stack.pop() {
+        if !seen.insert(v) || seen.len() > 5000 {
+            continue;
+        }
+        match g.node(v) {
+            Node::Float { .. } => has_float = true,
+            Node::Binary(BinaryOp::Shr, lhs, rhs) => {
+                let big_shift = matches!(g.node(*rhs), Node::Int { value, .. } if *value >= 8)
+                    || matches!(g.node(*rhs), Node::Name { .. } | Node::Binary(..));
+                let product = g.any_within(
+                    *lhs,
+                    &|x| matches!(g.node(x), Node::Binary(BinaryOp::Mul, ..)),
+                    500,
+                );
+                fixed |= big_shift && product;
+            }
+            _ => {}
+        }
+        stack.extend(g.children(v));
+    }
+    match state_type {
+        Some(t) if t.is_float() => return Arithmetic::Float,
+        Some(t) if t.is_integer() => {}
+        _ => {
+            if has_float {
+                return Arithmetic::Float;
+            }
+        }
+    }
+    if fixed {
+        Arithmetic::Fixed
+    } else {
+        Arithmetic::Integer
+    }
+}
+
+fn formula_text(reading: &Reading) -> String {
+    let mut parts = Vec::new();
+    for (m, c) in &reading.affine.alpha.terms {
+        let names: Vec<String> = m.iter().map(|a| reading.atom_text(*a)).collect();
+        let body = names.join(" * ");
+        let text = match (names.is_empty(), *c) {
+            (true, c) => format!("{c}"),
+            (false, 1.0) => body,
+            (false, -1.0) => format!("-{body}"),
+            (false, c) => format!("{c} * {body}"),
+        };
+        parts.push(text);
+    }
+    if parts.is_empty() {
+        "0".into()
+    } else {
+        parts.join(" + ").replace("+ -", "- ")
+    }
+}
+
+fn coefficient(reading: &Reading) -> Coefficient {
+    match reading.alpha {
+        Some(a) => Coefficient::Known(a),
+        None => {
+            let formula = formula_text(reading);
+            let runtime = reading.unknown.iter().find_map(|u| u.runtime.clone());
+            match runtime.filter(|name| context::is_time_step_name(name)) {
+                Some(name) => Coefficient::Adaptive {
+                    formula,
+                    depends_on: name,
+                },
+                None => Coefficient::Unknown {
+                    formula,
+                    reason: reading
+                        .unknown
+                        .first()
+                        .map(|u| u.reason.clone())
+                        .unwrap_or_else(|| "the coefficient is not a constant".into()),
+                },
+            }
+        }
+    }
+}
+
+fn build(
+    reading: Reading,
+    verdict: Verdict,
+    storage: Storage,
+    options: &RecogniseOptions,
+) -> Smoother {
+    let program = reading.program;
+    let walk = reading.walk;
+    let c = reading.candidate;
+    let g = &walk.graph;
+    let coefficient = match verdict.form {
+        Form::MovingAverage => Coefficient::Known(1.0 / f64::from(verdict.window.unwrap_or(1))),
+        _ => coefficient(&reading),
+    };
+    let arithmetic = arithmetic_of(g, &reading.state_type, c.value);
+    let inputs: Vec<V> = reading
+        .affine
+        .inputs
+        .iter()
+        .filter_map(|(a, _)| reading.affine.leaf(*a))
+        .collect();
+    let input_types: Vec<CType> = inputs
+        .iter()
+        .map(|v| {
+            let home = home_of(g, *v, walk.home);
+            let f = home_function(walk, home);
+            g.to_expr(*v, c.span, true, 2000)
+                .and_then(|e| eval::place_type(program, f, &e))
+                .or_else(|| reading.state_type.clone())
+                .unwrap_or(CType::Double)
+        })
+        .collect();
+    let simulation = match (&reading.state_type, verdict.form) {
+        (Some(ty), form) if form != Form::MovingAverage => compile_update(
+            program,
+            walk,
+            c,
+            &inputs,
+            ty,
+            input_types,
+            verdict.scale.unwrap_or(1.0),
+        ),
+        _ => None,
+    };
+    let dead_band = match verdict.form {
+        Form::MovingAverage => Some(sim::DeadBand {
+            rising: 0,
+            falling: 0,
+        })
+        .filter(|_| reading.state_type.as_ref().is_some_and(CType::is_integer)),
+        _ => match (&reading.state_type, coefficient.value(), &simulation) {
+            (Some(ty), Some(a), Some(u)) if ty.is_integer() => cached_dead_band(u, a),
+            _ => None,
+        },
+    };
+    let variants = variants_of(program, walk, c, &reading, &coefficient);
+    let rate = context::rate_of(&reading.chain, &coefficient, options.default_rate_hz);
+    let function = home_function(walk, walk.home);
+    let function_name = function
+        .map(|f| program.function(f).name.clone())
+        .unwrap_or_default();
+    let macro_name = c.macro_ref.map(|r| program.macro_def(r).name.clone());
+    let state_text = g.display(c.state, 200);
+    Smoother {
+        function: function_name,
+        function_ref: function,
+        macro_name,
+        state: state_text.clone(),
+        span: c.span,
+        definition: c.definition,
+        form: verdict.form,
+        arithmetic,
+        storage,
+        alpha: coefficient,
+        window: verdict.window,
+        dc_gain: verdict.dc_gain,
+        scale: verdict.scale,
+        dead_band,
+        chain: reading.chain.clone(),
+        rate,
+        code_rate: None,
+        variants,
+        update: format!("{state_text} = {}", g.display(c.value, 400)),
+        update_expr: g.to_expr(c.value, c.span, false, 4000),
+        state_type: reading.state_type.clone(),
+        inputs: inputs.iter().map(|v| g.display(*v, 200)).collect(),
+        simulation,
+        upstream: None,
+        through_branch: reading.affine.through_branch,
+    }
+}
+
+/// A verdict that needs no affine reading (a re-summed window).
+fn build_plain(
+    program: &Program,
+    walk: &WalkResult,
+    c: &Candidate,
+    verdict: Verdict,
+    storage: Storage,
+    options: &RecogniseOptions,
+) -> Smoother {
+    let g = &walk.graph;
+    let function = home_function(walk, walk.home);
+    let element_type = state_type(program, walk, c).and_then(|t| match program.resolve_type(&t) {
+        CType::Array(inner, _) | CType::Pointer(inner) => Some(program.resolve_type(&inner)),
+        _ => None,
+    });
+    let integer = element_type.as_ref().is_some_and(CType::is_integer);
+    let n = f64::from(verdict.window.unwrap_or(1));
+    let alpha = Coefficient::Known(1.0 / n);
+    let chain = verdict.chain.clone();
+    let rate = context::rate_of(&chain, &alpha, options.default_rate_hz);
+    let state_text = g.display(c.state, 200);
+    let input = c.resummed.as_ref().map(|r| r.input).unwrap_or(c.value);
+    Smoother {
+        function: function
+            .map(|f| program.function(f).name.clone())
+            .unwrap_or_default(),
+        function_ref: function,
+        macro_name: c.macro_ref.map(|r| program.macro_def(r).name.clone()),
+        state: state_text.clone(),
+        span: c.span,
+        definition: c.definition,
+        form: Form::MovingAverage,
+        arithmetic: if integer {
+            Arithmetic::Integer
+        } else {
+            Arithmetic::Float
+        },
+        storage,
+        alpha,
+        window: verdict.window,
+        dc_gain: Some(1.0),
+        scale: None,
+        dead_band: integer.then_some(sim::DeadBand {
+            rising: 0,
+            falling: 0,
+        }),
+        chain,
+        rate,
+        code_rate: None,
+        variants: Vec::new(),
+        update: format!(
+            "{state_text}[..] = {}; sum of {state_text}[0 .. {})",
+            g.display(input, 200),
+            verdict.window.unwrap_or(0)
+        ),
+        update_expr: None,
+        state_type: element_type,
+        inputs: vec![g.display(input, 200)],
+        simulation: None,
+        upstream: None,
+        through_branch: false,
+    }
+}
+
+/// The dead band of an update, remembered per compiled update: firmware repeats the same
+/// spelling (`>> 4` on an `int32_t`) many times, and the search is the costly part.
+fn cached_dead_band(update: &sim::Update, alpha: f64) -> Option<sim::DeadBand> {
+    use std::sync::{Mutex, OnceLock};
+    static CACHE: OnceLock<Mutex<HashMap<String, Option<sim::DeadBand>>>> = OnceLock::new();
+    let key = format!("{update:?}|{}", alpha.to_bits());
+    let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
+    if let Some(hit) = cache.lock().ok().and_then(|m| m.get(&key).copied()) {
+        return hit;
+    }
+    let band = update.dead_band(alpha);
+    if let Ok(mut m) = cache.lock() {
+        if m.len() < 100_000 {
+            m.insert(key, band);
+        }
+    }
+    band
+}
+
+/// Compiles the update for `sim`: the state in slot 0, the inputs in the next slots,
+/// every other value evaluated to its constant.
+fn compile_update(
+    program: &Program,
+    walk: &WalkResult,
+    c: &Candidate,
+    inputs: &[V],
+    state_ty: &CType,
+    input_types: Vec<CType>,
+    scale: f64,
+) -> Option<sim::Update> {
+    let carries = affine::carriers(&walk.graph, c.value, c.state, 200_000)?;
+    let mut ev = new_evaluator(program, walk);
+    let mut compiler = SimCompiler {
+        program,
+        walk,
+        state: c.state,
+        inputs,
+        carries: &carries,
+        span: c.span,
+        ev: &mut ev,
+        budget: 4096,
+    };
+    let node = compiler.compile(c.value, 0)?;
+    Some(sim::Update {
+        new_value: node,
+        state_type: state_ty.clone(),
+        input_types,
+        scale,
+        target: program.options.target,
+    })
+}
+
+struct SimCompiler<'a, 'p> {
+    program: &'p Program,
+    walk: &'a WalkResult,
+    state: V,
+    inputs: &'a [V],
+    carries: &'a std::collections::HashSet<V>,
+    span: Span,
+    ev: &'a mut Evaluator<'p>,
+    budget: usize,
+}
+
+impl SimCompiler<'_, '_> {
+    fn compile(&mut self, v: V, depth: u32) -> Option<sim::Node> {
+        if self.budget == 0 || depth > 200 {
+            return None;
+        }
+        self.budget -= 1;
+        if v == self.state {
+            return Some(sim::Node::Slot(0));
+        }
+        if let Some(i) = self.inputs.iter().position(|x| *x == v) {
+            return Some(sim::Node::Slot(i + 1));
+        }
+        let g = &self.walk.graph;
+        let carries = self.carries.contains(&v);
+        let sub = |this: &mut Self, x: V| this.compile(x, depth + 1).map(Box::new);
+        Some(match g.node(v).clone() {
+            Node::Local { value, .. } | Node::Stored { value, .. } if carries => {
+                return self.compile(value, depth + 1)
+            }
+            Node::Cast(t, a) if carries || self.contains_input(a) => {
+                let ty = self.program.resolve_type(g.ty(t));
+                sim::Node::Cast(ty, sub(self, a)?)
+            }
+            Node::Unary(op, a)
+                if (carries || self.contains_input(a))
+                    && op != UnaryOp::Deref
+                    && op != UnaryOp::AddrOf =>
+            {
+                sim::Node::Unary(op, sub(self, a)?)
+            }
+            Node::Binary(op, a, b) if carries || self.contains_input(v) => {
+                sim::Node::Binary(op, sub(self, a)?, sub(self, b)?)
+            }
+            Node::Cond(cv, a, b) if carries => {
+                sim::Node::Cond(sub(self, cv)?, sub(self, a)?, sub(self, b)?)
+            }
+            Node::Phi {
+                then, otherwise, ..
+            } if carries => {
+                // The side that carries the state, as the affine reading took it.
+                let side = if self.carries.contains(&then) {
+                    then
+                } else {
+                    otherwise
+                };
+                return self.compile(side, depth + 1);
+            }
+            _ => {
+                let n = eval_value(self.ev, self.walk, v, self.span).ok()?;
+                sim::Node::Const(n)
+            }
+        })
+    }
+
+    fn contains_input(&self, v: V) -> bool {
+        let inputs = self.inputs;
+        self.walk
+            .graph
+            .reaches_any(v, &|x| inputs.contains(&x), 2000)
+    }
+}
+
+/// The coefficient under each other definition of a macro in its chain.
+fn variants_of(
+    program: &Program,
+    walk: &WalkResult,
+    c: &Candidate,
+    reading: &Reading,
+    alpha: &Coefficient,
+) -> Vec<Variant> {
+    let mut variants = Vec::new();
+    if alpha.value().is_none() {
+        return variants;
+    }
+    for step in &reading.chain {
+        let Some(name) = &step.name else { continue };
+        if !step.text.starts_with("#define") {
+            continue;
+        }
+        let file = home_function(walk, walk.home).map(|f| f.file);
+        for def in program.macro_definitions(name) {
+            if def.span.line == step.line && def.span.file == step.file {
+                continue;
+            }
+            if program
+                .active_macro_in(name, file)
+                .is_some_and(|m| m.span == def.span)
+            {
+                continue;
+            }
+            let make = || {
+                let mut ev = new_evaluator(program, walk);
+                ev.macro_override = Some(def.clone());
+                ev
+            };
+            let ev = RefCell::new(make());
+            let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
+            let value = affine::read(&walk.graph, c.value, c.state, &shift).and_then(|aff| {
+                let mut ev = make();
+                let (values, _) = evaluate_atoms(program, walk, c, &aff, &mut ev);
+                let a = aff.alpha.evaluate(&|i| values[i as usize]);
+                a.is_finite().then_some(a)
+            });
+            variants.push(Variant {
+                condition: def.condition.to_string(),
+                macro_name: name.clone(),
+                alpha: value,
+                window: None,
+            });
+        }
+    }
+    variants
+}
