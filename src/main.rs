@@ -193,6 +193,13 @@ enum DebugWhat {
     Syntax { file: PathBuf },
     /// The lowered IR.
     Ir { file: PathBuf },
+    /// Every self-referencing update the recogniser considers in the files whose path ends
+    /// with FILE, and what it made of each.
+    Candidates {
+        file: String,
+        #[command(flatten)]
+        scan: ScanArgs,
+    },
     /// Walk and parse every file as `check` does, and nothing more (the benchmark's floor).
     ParseOnly {
         #[command(flatten)]
@@ -459,6 +466,19 @@ fn run(cli: Cli) -> Result<Status> {
             let (file, ir) = match &what {
                 DebugWhat::Syntax { file } => (file, false),
                 DebugWhat::Ir { file } => (file, true),
+                DebugWhat::Candidates { file, scan: args } => {
+                    let options = scan_options(args)?;
+                    let scanned = scan::run(&options);
+                    let lines =
+                        tauscan::recognise::explain(&scanned.program, &options.recognise, file);
+                    let mut text = String::new();
+                    for l in lines {
+                        text.push_str(&report::neutral(&l));
+                        text.push('\n');
+                    }
+                    emit(&text, &None)?;
+                    return Ok(Status::Clean);
+                }
                 DebugWhat::ParseOnly { scan: args } => {
                     let options = scan_options(args)?;
                     let seen = scan::parse_only(&options);

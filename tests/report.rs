@@ -201,7 +201,11 @@ fn the_vent_current_curve_matches_a_hand_computation() {
 
 /// The text of the section of the smoother with this id (escaped as the page escapes it).
 fn section_of<'a>(html: &'a str, id: &str) -> &'a str {
-    let heading = format!("<h2><code>{}</code></h2>", id.replace('&', "&amp;"));
+    let escaped = id
+        .replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;");
+    let heading = format!("<h2><code>{escaped}</code></h2>");
     let start = html
         .find(&heading)
         .unwrap_or_else(|| panic!("no section for {id}"));
@@ -248,6 +252,15 @@ fn the_demo_page_holds_every_smoother_and_what_the_gate_found() {
             .collect();
         fired.dedup();
         let verdict = section[section.find("<dt>verdict</dt>").unwrap()..].to_string();
+        if s["instances"].as_u64() > Some(0) {
+            // A filter function's own update: its calls are judged, each as an instance.
+            assert!(verdict.contains("instance"), "{id}: {verdict}");
+            assert!(
+                fired.is_empty(),
+                "{id}: rules judge the instances, not the body"
+            );
+            continue;
+        }
         if fired.is_empty() {
             assert!(verdict.contains(">pass"), "{id}: {verdict}");
         }

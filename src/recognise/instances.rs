@@ -29,14 +29,26 @@ use std::collections::BTreeSet;
 pub fn live_candidates(w: &WalkResult) -> Vec<usize> {
     let n = w.candidates.len();
     let mut dropped = vec![false; n];
+    let read = |i: usize| {
+        let c = &w.candidates[i];
+        affine::read(&w.graph, c.value, c.state, &|_, _| Shift::NotKnown)
+    };
     for j in (0..n).rev() {
         if dropped[j] || w.candidates[j].supersedes.is_empty() {
             continue;
         }
-        let c = &w.candidates[j];
-        let readable = affine::read(&w.graph, c.value, c.state, &|_, _| Shift::NotKnown).is_some();
-        if readable {
-            for &i in &c.supersedes {
+        let Some(later) = read(j) else {
+            continue;
+        };
+        let later_sig = signature(w, &later);
+        for &i in &w.candidates[j].supersedes {
+            // A later statement that only clamps, converts or copies what an earlier one
+            // computed (`y += k*(u - y); y = MAX(y, lo);`) adds nothing to the algebra: the
+            // update is the earlier line.
+            let same = read(i).is_some_and(|earlier| signature(w, &earlier) == later_sig);
+            if same {
+                dropped[j] = true;
+            } else {
                 dropped[i] = true;
             }
         }
@@ -44,6 +56,40 @@ pub fn live_candidates(w: &WalkResult) -> Vec<usize> {
     (0..n)
         .filter(|i| !dropped[*i] && w.candidates[*i].instance.is_none())
         .collect()
+}
+
+/// The algebra of a reading as text (alpha and each input's weight, by the atoms' C text),
+/// to tell whether two readings describe the same update.
+fn signature(w: &WalkResult, a: &affine::Affine) -> String {
+    let text = |p: &super::poly::Poly| {
+        let mut terms: Vec<String> = p
+            .terms
+            .iter()
+            .map(|(m, c)| {
+                let mut names: Vec<String> = m
+                    .iter()
+                    .map(|x| judge::atom_text(&w.graph, &a.atoms[*x as usize]))
+                    .collect();
+                names.sort();
+                format!("{c:.9}*{}", names.join("*"))
+            })
+            .collect();
+        terms.sort();
+        terms.join("+")
+    };
+    let mut inputs: Vec<String> = a
+        .inputs
+        .iter()
+        .map(|(x, wp)| {
+            format!(
+                "{}:{}",
+                judge::atom_text(&w.graph, &a.atoms[*x as usize]),
+                text(wp)
+            )
+        })
+        .collect();
+    inputs.sort();
+    format!("{}|{}", text(&a.alpha), inputs.join(","))
 }
 
 /// The parameter (by position) a candidate's state is reached through, if any.
@@ -88,19 +134,23 @@ pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize)
         .filter(|(k, _)| *k != root_param)
         .map(|(_, v)| *v)
         .collect();
-    // The call supplies an input or a coefficient.
+    // The coefficient lives in the object the call passes (`f->k`, set by an init), or
+    // the call supplies an input or a coefficient.
+    let Some(aff) = affine::read(g, c.value, c.state, &|_, _| Shift::NotKnown) else {
+        return false;
+    };
+    // An integrator or an accumulator is not a smoother at any call.
+    if aff.alpha.is_zero() {
+        return false;
+    }
+    let Some(root_value) = root_value else {
+        return false;
+    };
     if !other_params.is_empty()
         && g.reaches_any(c.value, &|x| other_params.contains(&x), walk::REACH_LIMIT)
     {
         return true;
     }
-    // The coefficient lives in the object the call passes (`f->k`, set by an init).
-    let Some(root_value) = root_value else {
-        return false;
-    };
-    let Some(aff) = affine::read(g, c.value, c.state, &|_, _| Shift::NotKnown) else {
-        return false;
-    };
     let mut weight_atoms = aff.alpha.atoms();
     for (_, wp) in &aff.inputs {
         weight_atoms.extend(wp.atoms());
@@ -110,7 +160,7 @@ pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize)
             AtomKind::Leaf(v) | AtomKind::Inverse(v, _) => *v,
             AtomKind::Pow2 { count, .. } => *count,
         };
-        g.reaches(v, root_value, walk::REACH_LIMIT)
+        g.spelled_with(v, &|x| x == root_value, walk::REACH_LIMIT)
     })
 }
 

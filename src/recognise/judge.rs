@@ -278,15 +278,27 @@ pub fn judge(
     i: usize,
     options: &RecogniseOptions,
 ) -> Option<Smoother> {
+    judge_explained(program, walk, i, options).ok()
+}
+
+/// Judges candidate `i`, or says why it is not a smoother (for `tauscan debug candidates`).
+pub fn judge_explained(
+    program: &Program,
+    walk: &WalkResult,
+    i: usize,
+    options: &RecogniseOptions,
+) -> Result<Smoother, &'static str> {
     let c = &walk.candidates[i];
-    let storage = storage_of(program, walk, c)?;
+    let storage = storage_of(program, walk, c).ok_or("a local object updated once per call")?;
     if let Some(r) = &c.resummed {
-        let verdict = forms::resummed::judge(program, walk, c, r)?;
-        return Some(build_plain(program, walk, c, verdict, storage, options));
+        let verdict =
+            forms::resummed::judge(program, walk, c, r).ok_or("re-summed window not constant")?;
+        return Ok(build_plain(program, walk, c, verdict, storage, options));
     }
     let ev = RefCell::new(new_evaluator(program, walk));
     let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
-    let aff = affine::read(&walk.graph, c.value, c.state, &shift)?;
+    let aff = affine::read(&walk.graph, c.value, c.state, &shift)
+        .ok_or("not affine in the state, or no input")?;
     let mut evaluator = ev.into_inner();
     let (values, unknown) = evaluate_atoms(program, walk, c, &aff, &mut evaluator);
     let state_type = state_type(program, walk, c);
@@ -319,17 +331,55 @@ pub fn judge(
             .sum();
         reading.input_weight = w.is_finite().then_some(w);
     }
-    let verdict = forms::moving_average::judge(&reading).or_else(|| {
-        // Alpha zero as written (the state's weight is exactly one) is an integrator or
-        // an accumulator, never a smoother: only a coefficient that C arithmetic
-        // truncates to zero (`float a = 1/8;`) is a smoother with a hazard.
-        if reading.affine.alpha.is_zero() {
-            return None;
+    if storage == Storage::LoopLocal && !input_changes_per_iteration(&reading) {
+        return Err("a loop iteration on a value that does not change between iterations");
+    }
+    let verdict = match forms::moving_average::judge(&reading) {
+        Some(v) => v,
+        None => {
+            // Alpha zero as written (the state's weight is exactly one) is an integrator or
+            // an accumulator, never a smoother: only a coefficient that C arithmetic
+            // truncates to zero (`float a = 1/8;`) is a smoother with a hazard.
+            if reading.affine.alpha.is_zero() {
+                return Err("the state's weight is exactly one (an integrator)");
+            }
+            forms::ema::reject(&reading).ok_or("the weight shrinks with a counter")?;
+            forms::scaled_state::judge(&reading)
+                .or_else(|| forms::ema::judge(&reading))
+                .ok_or("weights that do not make a low-pass")?
         }
-        forms::ema::reject(&reading)?;
-        forms::scaled_state::judge(&reading).or_else(|| forms::ema::judge(&reading))
-    })?;
-    Some(build(reading, verdict, storage, options))
+    };
+    Ok(build(reading, verdict, storage, options))
+}
+
+/// For an update carried from one iteration of a loop to the next: whether an input can
+/// change between iterations (a value read or computed in the loop, a call), so that the
+/// loop filters a sequence. A recursion whose inputs stay the same for the whole loop is a
+/// numerical iteration (bisection, a fixed point), not a smoother of samples.
+fn input_changes_per_iteration(r: &Reading) -> bool {
+    let walk = r.walk;
+    let g = &walk.graph;
+    let Some(loop_id) = r.candidate.loop_id else {
+        return true;
+    };
+    let floor = walk.loop_epochs.get(loop_id as usize).copied().unwrap_or(0);
+    r.affine.inputs.iter().any(|(a, _)| {
+        let Some(v) = r.affine.leaf(*a) else {
+            return true;
+        };
+        g.any_within(
+            v,
+            &|x| match g.node(x) {
+                Node::Call { .. } | Node::CallIndirect { .. } | Node::Huge(_) => true,
+                Node::Version { version, .. } => *version >= floor,
+                Node::Opaque { carried: true, .. } => {
+                    walk.carried_by.get(&x).is_some_and(|id| *id >= loop_id)
+                }
+                _ => false,
+            },
+            5000,
+        )
+    })
 }
 
 /// Where the state lives, which decides whether it survives between calls. None for a
@@ -367,7 +417,7 @@ fn storage_of(program: &Program, walk: &WalkResult, c: &Candidate) -> Option<Sto
             .iter()
             .any(|p| p.name == g.name(root))
     });
-    Some(match g.node(c.state) {
+    Some(match g.node(c.place) {
         Node::Name { .. } => {
             if walk.static_locals.contains(&root) && c.instance.is_none() {
                 Storage::StaticLocal
@@ -577,6 +627,7 @@ fn build(
         simulation,
         upstream: None,
         through_branch: reading.affine.through_branch,
+        instance_count: 0,
     }
 }
 
@@ -641,6 +692,7 @@ fn build_plain(
         simulation: None,
         upstream: None,
         through_branch: false,
+        instance_count: 0,
     }
 }
 

@@ -181,6 +181,9 @@ pub struct Smoother {
     pub upstream: Option<usize>,
     /// The reading followed one side of a branch merge (a clamp or a seed was set aside).
     pub through_branch: bool,
+    /// For the update inside a filter function: how many call sites are listed as its
+    /// instances (their coefficients are the ones that run).
+    pub instance_count: usize,
 }
 
 /// Something recognition wants a reader to know: a form it saw but could not resolve, a
@@ -312,11 +315,12 @@ fn first_pass(
         let live = instances::live_candidates(&w);
         let mut keep_for_callers = Vec::new();
         for i in live {
+            // A filter function's update is listed where it is written (its coefficient
+            // as far as the function alone says) and again at each call.
             if instances::hands_to_callers(program, f, &w, i) {
                 keep_for_callers.push(i);
-                continue;
             }
-            if let Some(s) = judge::judge(program, &w, i, &options.clone()) {
+            if let Some(s) = judge::judge(program, &w, i, options) {
                 part.smoothers.push(s);
             }
         }
@@ -333,6 +337,66 @@ fn first_pass(
         });
     }
     part
+}
+
+/// What the recogniser makes of every candidate update in the files whose path ends with
+/// `only` (all files when empty): one line each, for `tauscan debug candidates`.
+pub fn explain(program: &Program, options: &RecogniseOptions, only: &str) -> Vec<String> {
+    let helpers = walk::Helpers::default();
+    let mut lines = Vec::new();
+    for (fi, file) in program.files.iter().enumerate() {
+        if !program.paths[fi].ends_with(only) {
+            continue;
+        }
+        for (index, function) in file.functions.iter().enumerate() {
+            if !program.condition_possible(&function.condition) {
+                continue;
+            }
+            let f = FuncRef { file: fi, index };
+            let setup = walk::Setup {
+                program,
+                function: Some(f),
+                file: fi,
+                helpers: Some(&helpers),
+                summaries: None,
+                budget: FUNCTION_BUDGET,
+            };
+            let w = walk::walk_function(&setup);
+            let live = instances::live_candidates(&w);
+            for (i, c) in w.candidates.iter().enumerate() {
+                let verdict = if !live.contains(&i) {
+                    "continued by a later update of the same state".to_string()
+                } else if instances::hands_to_callers(program, f, &w, i) {
+                    "put in at the calls of this function".to_string()
+                } else {
+                    match judge::judge_explained(program, &w, i, options) {
+                        Ok(s) => format!(
+                            "{} alpha {}",
+                            s.form.name(),
+                            s.alpha
+                                .value()
+                                .map(|a| format!("{a}"))
+                                .unwrap_or_else(|| "unknown".into())
+                        ),
+                        Err(why) => format!("not a smoother: {why}"),
+                    }
+                };
+                lines.push(format!(
+                    "{}:{} {}() {:?} {} = {}: {verdict}",
+                    program.paths[fi],
+                    c.span.line,
+                    function.name,
+                    c.kind,
+                    w.graph.display(c.state, 80),
+                    w.graph.display(c.value, 160),
+                ));
+            }
+            for (span, note) in &w.notes {
+                lines.push(format!("{}:{} note: {note}", program.paths[fi], span.line));
+            }
+        }
+    }
+    lines
 }
 
 /// A macro definition read on its own: its smoothers, with no function.
@@ -397,6 +461,17 @@ fn finish(program: &Program, result: &mut Recognition) {
         ))
     });
     result.notes.dedup();
+    let definitions: Vec<(FileId, u32)> = result
+        .smoothers
+        .iter()
+        .filter_map(|s| s.definition.map(|d| (d.file, d.line)))
+        .collect();
+    for s in &mut result.smoothers {
+        if s.definition.is_none() {
+            let here = (s.span.file, s.span.line);
+            s.instance_count = definitions.iter().filter(|d| **d == here).count();
+        }
+    }
     link_cascades(&mut result.smoothers);
 }
 

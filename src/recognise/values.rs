@@ -72,6 +72,12 @@ pub enum Node {
         version: u32,
         value: V,
     },
+    /// The value a place holds after something may have changed it (a call, the start of
+    /// a loop's iteration): a leaf, printed as the place. Version 0 is the place itself.
+    Version {
+        place: V,
+        version: u32,
+    },
     /// A local temporary whose value is not known here: set in a loop (`carried`: the
     /// value at the start of an iteration), in branches, or never set.
     Opaque {
@@ -288,6 +294,22 @@ impl Graph {
         })
     }
 
+    /// A place's value at a later epoch of the walk (version 0 is the place itself).
+    pub fn version(&mut self, place: V, version: u32) -> V {
+        if version == 0 {
+            return place;
+        }
+        self.add(Node::Version { place, version })
+    }
+
+    /// The place a value read from memory stands for (itself for a place).
+    pub fn place_of(&self, v: V) -> V {
+        match self.node(v) {
+            Node::Version { place, .. } => *place,
+            _ => v,
+        }
+    }
+
     pub fn opaque(&mut self, name: Sym, home: Home, version: u32, carried: bool) -> V {
         self.add(Node::Opaque {
             name,
@@ -439,6 +461,7 @@ impl Graph {
             | Node::LocalObject { .. }
             | Node::Opaque { .. }
             | Node::Text(_)
+            | Node::Version { .. }
             | Node::Huge(_) => Vec::new(),
             Node::Local { value, .. } | Node::Stored { value, .. } => vec![*value],
             Node::Field { base, .. } => vec![*base],
@@ -458,6 +481,34 @@ impl Graph {
                 otherwise: c,
             } => vec![*a, *b, *c],
         }
+    }
+
+    /// Every node a node refers to: its children, and for a version the place it is of
+    /// (a leaf for the algebra, but part of the value's spelling).
+    pub fn deps(&self, v: V) -> Vec<V> {
+        match self.node(v) {
+            Node::Version { place, .. } => vec![*place],
+            _ => self.children(v),
+        }
+    }
+
+    /// Like `reaches_any`, following the places of versions too ("is spelled with").
+    pub fn spelled_with(&self, from: V, hit: &dyn Fn(V) -> bool, limit: usize) -> bool {
+        let mut seen = std::collections::HashSet::new();
+        let mut stack = vec![from];
+        while let Some(v) = stack.pop() {
+            if !seen.insert(v) {
+                continue;
+            }
+            if hit(v) {
+                return true;
+            }
+            if seen.len() > limit {
+                return true;
+            }
+            stack.extend(self.deps(v));
+        }
+        false
     }
 
     /// Whether `target` is reachable from `from` (the value reads it). At most `limit`
@@ -537,7 +588,7 @@ impl Graph {
                 return None;
             }
             stack.push((v, true));
-            for c in other.children(v) {
+            for c in other.deps(v) {
                 stack.push((c, false));
             }
         }
@@ -594,6 +645,10 @@ impl Graph {
                     let n = other.name(name).to_string();
                     let value = map(value, memo);
                     self.stored(&n, version, value)
+                }
+                Node::Version { place, version } => {
+                    let place = map(place, memo);
+                    self.version(place, version)
                 }
                 Node::Opaque {
                     name,
@@ -685,7 +740,11 @@ impl Graph {
     pub fn is_place(&self, v: V) -> bool {
         matches!(
             self.node(v),
-            Node::Name { .. } | Node::Field { .. } | Node::Index { .. } | Node::Deref(_)
+            Node::Name { .. }
+                | Node::Field { .. }
+                | Node::Index { .. }
+                | Node::Deref(_)
+                | Node::Version { .. }
         )
     }
 
@@ -702,6 +761,7 @@ impl Graph {
                 }
                 Node::AddrOf(a) | Node::Cast(_, a) => v = *a,
                 Node::Local { value, .. } | Node::Stored { value, .. } => v = *value,
+                Node::Version { place, .. } => v = *place,
                 Node::Binary(BinaryOp::Add | BinaryOp::Sub, a, _) => v = *a,
                 _ => return None,
             }
@@ -862,6 +922,7 @@ impl Graph {
                 self.write_operand(*b, 3, out, limit, depth);
             }
             Node::Text(s) => out.push_str(self.name(*s)),
+            Node::Version { place, .. } => self.write(*place, _parent, out, limit, depth + 1),
             Node::Huge(n) => {
                 let _ = write!(out, "<value {n} too large to follow>");
             }
@@ -928,6 +989,7 @@ impl Graph {
                 ExprKind::Ident(self.name(name).to_string())
             }
             Node::Stored { value, .. } => return sub(value).map(|b| *b),
+            Node::Version { place, .. } => return sub(place).map(|b| *b),
             Node::Field { base, arrow, field } => ExprKind::Field {
                 base: sub(base)?,
                 arrow,

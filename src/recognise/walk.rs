@@ -64,7 +64,12 @@ pub struct Resummed {
 /// A self-referencing write found by the walk, not yet judged.
 #[derive(Debug, Clone)]
 pub struct Candidate {
+    /// The state's value as the update read it (a place, or a later version of it).
     pub state: V,
+    /// The place (or carried local) the update writes.
+    pub place: V,
+    /// The innermost loop around the update (its number), if any.
+    pub loop_id: Option<u32>,
     pub value: V,
     /// Where to report it: the update statement, or for an expansion, the macro call.
     pub span: Span,
@@ -107,6 +112,11 @@ pub struct WalkResult {
     pub exhausted: bool,
     /// The parameters' entry values, in order.
     pub params: Vec<V>,
+    /// For each loop (by number): the epoch at which its body starts; values of memory
+    /// read from then on, and locals carried by it, change between its iterations.
+    pub loop_epochs: Vec<u32>,
+    /// The loop each carried local belongs to.
+    pub carried_by: HashMap<V, u32>,
 }
 
 /// The helper functions' returned formulas, computed once each, on first use.
@@ -189,6 +199,7 @@ pub struct FunctionUpdates {
 #[derive(Debug, Clone)]
 pub struct UpdateTemplate {
     pub state: V,
+    pub place: V,
     pub value: V,
     pub guards: Vec<V>,
     pub span: Span,
@@ -223,6 +234,7 @@ enum PlaceRef {
 }
 
 struct LoopFrame {
+    id: u32,
     carried: HashMap<Sym, V>,
 }
 
@@ -255,6 +267,11 @@ struct Walker<'a> {
     work: u64,
     exhausted: bool,
     quiet: u32,
+    /// Memory's epoch: it moves on at each call and each loop boundary, after which a
+    /// place's value is a new version.
+    epoch: u32,
+    loop_epochs: Vec<u32>,
+    carried_by: HashMap<V, u32>,
 }
 
 /// Walks a function body.
@@ -341,6 +358,9 @@ impl<'a> Walker<'a> {
             work: 0,
             exhausted: false,
             quiet: 0,
+            epoch: 0,
+            loop_epochs: Vec::new(),
+            carried_by: HashMap::new(),
         }
     }
 
@@ -369,6 +389,8 @@ impl<'a> Walker<'a> {
             work: self.work,
             exhausted: self.exhausted,
             params: self.param_values,
+            loop_epochs: self.loop_epochs,
+            carried_by: self.carried_by,
         }
     }
 
@@ -562,6 +584,9 @@ impl<'a> Walker<'a> {
     fn branches(&mut self, cond: V, alternatives: &[(V, Option<&Stmt>)]) {
         self.branch_depth += 1;
         let mut outcomes: Vec<Vec<(Key, Option<Binding>)>> = Vec::new();
+        // The epoch of memory at the end of each alternative: a place not forwarded there
+        // holds its version of that epoch.
+        let mut ends: Vec<u32> = Vec::new();
         for (guard, body) in alternatives {
             let mark = self.env.mark();
             self.guards.push(*guard);
@@ -570,6 +595,7 @@ impl<'a> Walker<'a> {
             }
             self.guards.pop();
             outcomes.push(self.env.undo(mark));
+            ends.push(self.epoch);
         }
         self.branch_depth -= 1;
         let mut keys: Vec<Key> = Vec::new();
@@ -590,17 +616,15 @@ impl<'a> Walker<'a> {
                     None => before,
                 })
                 .collect();
-            let value_of = |this: &mut Walker, b: Option<Binding>| -> Option<V> {
-                match (key, b) {
+            let vs: Vec<Option<V>> = values
+                .iter()
+                .zip(&ends)
+                .map(|(b, end)| match (key, b) {
                     (_, Some(b)) => Some(b.value),
-                    (Key::Place(p), None) => Some(p),
-                    (Key::Local(_), None) => {
-                        let _ = this;
-                        None
-                    }
-                }
-            };
-            let vs: Vec<Option<V>> = values.iter().map(|b| value_of(self, *b)).collect();
+                    (Key::Place(p), None) => Some(self.g.version(p, *end)),
+                    (Key::Local(_), None) => None,
+                })
+                .collect();
             let origin = values
                 .iter()
                 .flatten()
@@ -622,7 +646,9 @@ impl<'a> Walker<'a> {
                 None
             };
             match (key, merged) {
-                (Key::Place(p), Some(v)) if v == p => self.env.remove(key),
+                (Key::Place(p), Some(v)) if v == self.g.version(p, self.epoch) => {
+                    self.env.remove(key)
+                }
                 (_, Some(v)) => self.env.set(key, Binding { value: v, origin }),
                 (Key::Local(s), None) => {
                     let v = self.fresh(s, false);
@@ -702,7 +728,15 @@ impl<'a> Walker<'a> {
             assigned_in_expr(s, &mut assigned);
         }
         let mark = self.env.mark();
+        // What memory held before the loop may change between iterations.
+        for p in self.env.places() {
+            self.env.remove(Key::Place(p));
+        }
+        self.epoch += 1;
+        let id = self.loop_epochs.len() as u32;
+        self.loop_epochs.push(self.epoch);
         let mut frame = LoopFrame {
+            id,
             carried: HashMap::new(),
         };
         for name in assigned {
@@ -719,10 +753,7 @@ impl<'a> Walker<'a> {
                 },
             );
             frame.carried.insert(s, v);
-        }
-        // What memory held before the loop may change between iterations.
-        for p in self.env.places() {
-            self.env.remove(Key::Place(p));
+            self.carried_by.insert(v, id);
         }
         self.loops.push(frame);
         if let Some(c) = cond {
@@ -749,6 +780,10 @@ impl<'a> Walker<'a> {
                 Key::Place(_) => self.env.remove(key),
             }
         }
+        for p in self.env.places() {
+            self.env.remove(Key::Place(p));
+        }
+        self.epoch += 1;
     }
 
     /// `for (i = 0; i < N; i++) acc += buf[i];` over a buffer that this body stored a new
@@ -842,6 +877,8 @@ impl<'a> Walker<'a> {
         let (site, definition, macro_ref) = self.site_full(span);
         Some(Candidate {
             state: buffer,
+            place: buffer,
+            loop_id: self.loops.last().map(|f| f.id),
             value: input,
             span: site,
             definition,
@@ -1203,7 +1240,10 @@ impl<'a> Walker<'a> {
     fn load(&mut self, p: PlaceRef) -> V {
         match p {
             PlaceRef::Local(s) => self.local_value(s),
-            PlaceRef::Mem(v) => self.env.get(Key::Place(v)).map(|b| b.value).unwrap_or(v),
+            PlaceRef::Mem(v) => match self.env.get(Key::Place(v)) {
+                Some(b) => b.value,
+                None => self.g.version(v, self.epoch),
+            },
         }
     }
 
@@ -1290,6 +1330,8 @@ impl<'a> Walker<'a> {
                         let state_expr = Some(target.clone());
                         self.push_candidate(Candidate {
                             state: c,
+                            place: c,
+                            loop_id: self.loops.last().map(|f| f.id),
                             value: new,
                             span: site,
                             definition,
@@ -1342,16 +1384,23 @@ impl<'a> Walker<'a> {
                         let ls = self.g.sym(local);
                         if let Some(b) = self.env.get(Key::Local(ls)) {
                             if let Some(o) = b.origin {
-                                if self.g.reaches(b.value, place, REACH_LIMIT) {
+                                if self.state_read(b.value, place).is_some() {
                                     origin = o;
                                 }
                             }
                         }
                     }
                 }
-                if !constant_step && self.g.reaches(v, place, REACH_LIMIT) {
+                let read = if constant_step {
+                    None
+                } else {
+                    self.state_read(v, place)
+                };
+                if let Some(state) = read {
                     self.push_candidate(Candidate {
-                        state: place,
+                        state,
+                        place,
+                        loop_id: self.loops.last().map(|f| f.id),
                         value: v,
                         span: origin.0,
                         definition: origin.1,
@@ -1369,6 +1418,8 @@ impl<'a> Walker<'a> {
                     if let Some(previous) = self.previous_element(place, v) {
                         self.push_candidate(Candidate {
                             state: previous,
+                            place,
+                            loop_id: self.loops.last().map(|f| f.id),
                             value: v,
                             span: origin.0,
                             definition: origin.1,
@@ -1402,6 +1453,41 @@ impl<'a> Walker<'a> {
         }
     }
 
+    /// The value of `place` that `value` reads as its previous state: the place itself or a
+    /// later version of it, read since the innermost loop's iteration began (a value read
+    /// before the loop is another sample of the place, not the one this iteration updates).
+    /// The latest such version when there are several.
+    fn state_read(&self, value: V, place: V) -> Option<V> {
+        let floor = self
+            .loops
+            .last()
+            .map(|f| self.loop_epochs[f.id as usize])
+            .unwrap_or(0);
+        let g = &self.g;
+        let mut best: Option<(u32, V)> = None;
+        let mut seen = std::collections::HashSet::new();
+        let mut stack = vec![value];
+        while let Some(v) = stack.pop() {
+            if !seen.insert(v) || seen.len() > REACH_LIMIT {
+                continue;
+            }
+            match g.node(v) {
+                Node::Version { place: p, version } if *p == place && *version >= floor => {
+                    if best.is_none_or(|(b, _)| *version > b) {
+                        best = Some((*version, v));
+                    }
+                }
+                _ if v == place && floor == 0 => {
+                    if best.is_none() {
+                        best = Some((0, v));
+                    }
+                }
+                _ => stack.extend(g.children(v)),
+            }
+        }
+        best.map(|(_, v)| v)
+    }
+
     /// `y[i] = f(y[i - 1])` in a loop: the element the value reads at a constant offset
     /// below the one written.
     fn previous_element(&self, place: V, value: V) -> Option<V> {
@@ -1415,7 +1501,7 @@ impl<'a> Walker<'a> {
             if found.is_some() || !seen.insert(v) || seen.len() > 2000 {
                 break;
             }
-            if let Node::Index { base: b, index: i } = *self.g.node(v) {
+            if let Node::Index { base: b, index: i } = *self.g.node(self.g.place_of(v)) {
                 if b == base && i != index && self.offset_below(index, i) {
                     found = Some(v);
                     continue;
@@ -1507,6 +1593,8 @@ impl<'a> Walker<'a> {
         }
         self.push_candidate(Candidate {
             state: leaf,
+            place: leaf,
+            loop_id: None,
             value: new,
             span: site,
             definition,
@@ -1527,7 +1615,10 @@ impl<'a> Walker<'a> {
             return;
         }
         for (i, old) in self.candidates.iter().enumerate() {
-            if old.state == c.state
+            // A continuation reads the same state as the earlier update and reads the
+            // earlier update's value on the way (not merely through an input).
+            if old.place == c.place
+                && old.state == c.state
                 && old.instance.is_none()
                 && c.instance.is_none()
                 && self.g.reaches(c.value, old.value, REACH_LIMIT)
@@ -1595,27 +1686,40 @@ impl<'a> Walker<'a> {
         for p in self.env.places() {
             self.env.remove(Key::Place(p));
         }
+        self.epoch += 1;
         for a in args {
-            if let ExprKind::Unary {
+            let ExprKind::Unary {
                 op: UnaryOp::AddrOf,
                 arg,
             } = &a.kind
-            {
-                if let Some(root) = arg.root_ident() {
-                    let s = self.g.sym(root);
-                    if self.locals.get(&s).is_some_and(|i| !i.is_static) {
-                        self.escapes.push((s, self.seq));
-                        if self.is_env_local(root) {
-                            let v = self.fresh(s, false);
-                            self.env.set(
-                                Key::Local(s),
-                                Binding {
-                                    value: v,
-                                    origin: None,
-                                },
-                            );
-                        }
-                    }
+            else {
+                continue;
+            };
+            // `&x` of a scalar local: the call may set it. `&obj.f`, `&buf[i]` of a local
+            // object: the object went into the call (a round trip keeps it). `&p->f` goes
+            // through a pointer and leaves the local `p` itself alone.
+            if let ExprKind::Ident(n) = &arg.kind {
+                if self.is_env_local(n) {
+                    let s = self.g.sym(n);
+                    let v = self.fresh(s, false);
+                    self.env.set(
+                        Key::Local(s),
+                        Binding {
+                            value: v,
+                            origin: None,
+                        },
+                    );
+                    continue;
+                }
+            }
+            if let Some(root) = own_object(arg) {
+                let s = self.g.sym(root);
+                if self
+                    .locals
+                    .get(&s)
+                    .is_some_and(|i| !i.is_static && i.aggregate)
+                {
+                    self.escapes.push((s, self.seq));
                 }
             }
         }
@@ -1668,6 +1772,12 @@ impl<'a> Walker<'a> {
             else {
                 continue;
             };
+            let Some(place) = self
+                .g
+                .import(&updates.graph, t.place, &subst, limit, &mut memo)
+            else {
+                continue;
+            };
             let mut guards = self.guards.clone();
             for gv in &t.guards {
                 if let Some(v) = self.g.import(&updates.graph, *gv, &subst, limit, &mut memo) {
@@ -1686,6 +1796,8 @@ impl<'a> Walker<'a> {
             }
             self.candidates.push(Candidate {
                 state,
+                place,
+                loop_id: None,
                 value,
                 span: site,
                 definition: Some(t.definition.unwrap_or(t.span)),
@@ -1712,6 +1824,20 @@ fn mentions_ident(e: &Expr, name: &str) -> bool {
         }
     });
     found
+}
+
+/// The variable whose own storage an lvalue is part of (`obj` in `obj.f[2]`), not going
+/// through a pointer.
+fn own_object(e: &Expr) -> Option<&str> {
+    match &e.kind {
+        ExprKind::Ident(n) => Some(n),
+        ExprKind::Field {
+            base, arrow: false, ..
+        }
+        | ExprKind::Index { base, .. } => own_object(base),
+        ExprKind::Cast { arg, .. } => own_object(arg),
+        _ => None,
+    }
 }
 
 /// The local an expression just reads (`t`, `(int16_t)t`, `(t)`).
@@ -1767,6 +1893,9 @@ pub fn summarise(result: &WalkResult, keep: &[usize]) -> Option<FunctionUpdates>
         let Some(value) = g.import(&result.graph, c.value, &none, 50_000, &mut memo) else {
             continue;
         };
+        let Some(place) = g.import(&result.graph, c.place, &none, 50_000, &mut memo) else {
+            continue;
+        };
         let guards = c
             .guards
             .iter()
@@ -1774,6 +1903,7 @@ pub fn summarise(result: &WalkResult, keep: &[usize]) -> Option<FunctionUpdates>
             .collect();
         templates.push(UpdateTemplate {
             state,
+            place,
             value,
             guards,
             span: c.span,

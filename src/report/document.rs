@@ -98,6 +98,9 @@ pub enum Verdict {
         rules: Vec<&'static str>,
         worst: Severity,
     },
+    /// The update inside a filter function or macro: each of its calls is listed and
+    /// judged as an instance of its own.
+    Instances { count: usize },
 }
 
 impl Verdict {
@@ -109,6 +112,8 @@ impl Verdict {
                 requirements: false,
             } => "pass (no requirement in the spec)".into(),
             Verdict::Fired { rules, .. } => rules.join(", "),
+            Verdict::Instances { count: 1 } => "judged at its one instance".into(),
+            Verdict::Instances { count } => format!("judged at each of its {count} instances"),
         }
     }
 }
@@ -502,7 +507,13 @@ pub fn build(
             },
             dc_gain: s.dc_gain,
             update: s.update.clone(),
-            verdict: verdict(&findings, &requirements),
+            verdict: if s.instance_count > 0 {
+                Verdict::Instances {
+                    count: s.instance_count,
+                }
+            } else {
+                verdict(&findings, &requirements)
+            },
             findings,
             requirements,
             excerpts,

@@ -75,6 +75,7 @@ td.num { white-space: nowrap; }
 .verdict-error { color: var(--error); font-weight: 600; }
 .verdict-warning { color: var(--warning); font-weight: 600; }
 .verdict-note { color: var(--note); font-weight: 600; }
+.verdict-neutral { font-weight: 600; }
 .banner { border: 2px solid var(--error); padding: .5rem .8rem; color: var(--error); }
 pre.source { background: #f7f8f9; border: 1px solid var(--rule); padding: .4rem 0;
              overflow-x: auto; margin: .3rem 0 .8rem; tab-size: 4; }
@@ -113,6 +114,7 @@ fn verdict_html(v: &Verdict) -> String {
     let class = match v {
         Verdict::Pass { .. } => "verdict-pass",
         Verdict::Fired { worst, .. } => severity_class(*worst),
+        Verdict::Instances { .. } => "verdict-neutral",
     };
     format!("<span class=\"{class}\">{}</span>", escape(&v.text()))
 }

@@ -11,10 +11,14 @@
 //!   "smoothers": [ {
 //!     "id": "vent.c::vent_sample::g_vent.temp",   // path::function::state, stable
 //!     "file": "vent.c", "line": 42, "column": 5,  // the update, or an instance's call
-//!     "function": "vent_sample", "state": "g_vent.temp",
+//!     "function": "vent_sample" | null (null: a macro definition no code expands),
+//!     "state": "g_vent.temp",
+//!     "macro": "LPF" | null,                      // the macro the update comes from
+//!     "instances": 0,                             // call sites listed for this update
 //!     "form": "ema" | "ema-scaled-state" | "moving-average",
 //!     "arithmetic": "float" | "integer" | "fixed",
-//!     "storage": "static-local" | "global" | "field" | "array-element" | "pointer" | "local",
+//!     "storage": "static-local" | "global" | "field" | "array-element" | "pointer"
+//!                | "loop-local" | "local",
 //!     "alpha": 0.125 | null (null for a moving average, which has a window), "alpha_formula": "k" | null, "alpha_reason": "…" | null,
 //!     "tau_samples": 8.0 | null, "window": 16 | null,
 //!     "rate_hz": 500.0 | null, "rate_source": "LOOP_HZ = 500 (…)" | null,
@@ -122,8 +126,15 @@ struct Record<'a> {
     file: &'a str,
     line: u32,
     column: u32,
-    function: &'a str,
+    /// Null for a macro definition that no code expands.
+    function: Option<&'a str>,
     state: &'a str,
+    /// The macro the update comes from (an expansion, or a macro definition), else null.
+    #[serde(rename = "macro")]
+    macro_name: Option<&'a str>,
+    /// For the update inside a filter function or macro: how many call sites are listed as
+    /// its instances (each with its own coefficient and rate); 0 otherwise.
+    instances: usize,
     form: &'static str,
     arithmetic: &'static str,
     storage: &'static str,
@@ -235,8 +246,10 @@ fn record<'a>(
         file: program.path(s.span.file),
         line: s.span.line,
         column: s.span.column,
-        function: &s.function,
+        function: s.function_ref.map(|_| s.function.as_str()),
         state: &s.state,
+        macro_name: s.macro_name.as_deref(),
+        instances: s.instance_count,
         form: s.form.name(),
         arithmetic: s.arithmetic.name(),
         storage: s.storage.name(),

@@ -145,14 +145,26 @@ pub fn render(scan: &Scan) -> String {
             .unwrap_or_else(|| "-".into());
         let location = format!("{}:{}", scan.program.path(s.span.file), s.span.line);
         let mut coefficient_text = coefficient(s);
+        if s.instance_count > 0 && s.alpha.value().is_none() {
+            // A filter function's own update: each call below has its coefficient.
+            coefficient_text = format!(
+                "per call ({} instance{})",
+                s.instance_count,
+                if s.instance_count == 1 { "" } else { "s" }
+            );
+        }
         if !s.variants.is_empty() {
             // Other `#if` branches give other values: say so, the JSON lists them.
             coefficient_text.push_str(&format!(" +{} #if", s.variants.len()));
         }
         let form = format!("{} {}", s.form.name(), s.arithmetic.name());
+        let function = match (&s.function_ref, &s.macro_name) {
+            (None, Some(m)) => format!("#define {m}"),
+            _ => s.function.clone(),
+        };
         rows.push(vec![
             neutral(&location),
-            neutral(&s.function),
+            neutral(&function),
             neutral(&s.state),
             form,
             neutral(&coefficient_text),

@@ -150,6 +150,9 @@ pub struct Context<'a> {
 }
 
 impl Context<'_> {
+    /// The smoothers the rules judge: every one but the update inside a filter function
+    /// or macro whose calls are listed as instances (each instance carries the coefficient
+    /// and the rate that really run, and is judged itself).
     pub fn smoothers(&self) -> impl Iterator<Item = (usize, &Smoother, &SmootherFigures)> {
         self.scan
             .recognition
@@ -157,6 +160,7 @@ impl Context<'_> {
             .iter()
             .zip(&self.scan.figures)
             .enumerate()
+            .filter(|(_, (s, _))| s.instance_count == 0)
             .map(|(i, (s, f))| (i, s, f))
     }
 

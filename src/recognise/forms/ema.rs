@@ -34,7 +34,7 @@ pub fn reject(r: &Reading) -> Option<()> {
             g.any_within(
                 v,
                 &|x| {
-                    let x = g.strip_aliases(x);
+                    let x = g.place_of(g.strip_aliases(x));
                     g.is_place(x) && r.program.is_counter(&g.display(x, 200), file)
                 },
                 500,
@@ -49,6 +49,31 @@ pub fn reject(r: &Reading) -> Option<()> {
     });
     if counter {
         return None;
+    }
+    // A coefficient that reads what another update of the same body writes is part of a
+    // coupled recursion (a Kalman gain from a covariance updated each step, a projection
+    // whose ratio comes from the other coordinates being moved), not a smoother's constant.
+    let others: Vec<_> = r
+        .walk
+        .candidates
+        .iter()
+        .filter(|c| {
+            c.place != r.candidate.place && matches!(c.kind, super::super::walk::StateKind::Place)
+        })
+        .map(|c| c.place)
+        .collect();
+    if !others.is_empty() {
+        let coupled = r.weight_atoms().iter().any(|&a| {
+            let v = match &r.affine.atoms[a as usize] {
+                super::super::affine::AtomKind::Leaf(v) => *v,
+                super::super::affine::AtomKind::Inverse(v, _) => *v,
+                super::super::affine::AtomKind::Pow2 { count, .. } => *count,
+            };
+            g.any_within(v, &|x| others.contains(&g.place_of(x)), 2000)
+        });
+        if coupled {
+            return None;
+        }
     }
     Some(())
 }

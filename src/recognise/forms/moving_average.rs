@@ -33,7 +33,8 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
     else {
         return None;
     };
-    let Node::Index { base, index } = *g.node(*leaving) else {
+    let leaving = g.place_of(*leaving);
+    let Node::Index { base, index } = *g.node(leaving) else {
         return None;
     };
     let entering = g.strip_aliases(*entering);
@@ -41,7 +42,7 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
         .walk
         .stores
         .iter()
-        .any(|(p, v)| *p == *leaving && g.strip_aliases(*v) == entering);
+        .any(|(p, v)| *p == leaving && g.strip_aliases(*v) == entering);
     if !stored {
         return None;
     }
