@@ -81,6 +81,14 @@ fn words(name: &str) -> Vec<String> {
     if !current.is_empty() {
         out.push(current);
     }
+    // `dT`, `dTs`: short names whose capital is not a new word; the name's pieces between
+    // underscores count too.
+    for piece in name.split('_') {
+        let lower = piece.to_ascii_lowercase();
+        if !lower.is_empty() && !out.contains(&lower) {
+            out.push(lower);
+        }
+    }
     out
 }
 
@@ -103,6 +111,13 @@ const FILTER_OWN: &[&str] = &[
     "knee",
 ];
 
+/// Words that make a name a count, a size or a factor, never a time or a rate
+/// (`LORA_DELTA_SHIFT`, `STEP_BITS`, `TICK_DIV`).
+const NOT_A_TIME: &[&str] = &[
+    "shift", "shr", "shl", "bits", "bit", "count", "cnt", "len", "size", "scale", "ratio",
+    "weight", "coef", "coeff", "div", "divider", "mult", "mul", "mask",
+];
+
 /// Whether a name reads as the time step between updates (`dt`, `DT_S`, `TICK_MS`).
 pub fn is_time_step_name(name: &str) -> bool {
     time_step_scale(name).is_some()
@@ -111,7 +126,9 @@ pub fn is_time_step_name(name: &str) -> bool {
 /// For a time-step name, the factor from its unit to seconds.
 fn time_step_scale(name: &str) -> Option<f64> {
     let w = words(name);
-    if w.iter().any(|x| FILTER_OWN.contains(&x.as_str())) {
+    if w.iter()
+        .any(|x| FILTER_OWN.contains(&x.as_str()) || NOT_A_TIME.contains(&x.as_str()))
+    {
         return None;
     }
     let step = w.iter().any(|x| {
@@ -136,7 +153,9 @@ fn time_step_scale(name: &str) -> Option<f64> {
 /// For a rate name, the factor from its unit to Hz.
 fn rate_scale(name: &str) -> Option<f64> {
     let w = words(name);
-    if w.iter().any(|x| FILTER_OWN.contains(&x.as_str())) {
+    if w.iter()
+        .any(|x| FILTER_OWN.contains(&x.as_str()) || NOT_A_TIME.contains(&x.as_str()))
+    {
         return None;
     }
     let khz = w.iter().any(|x| x == "khz");

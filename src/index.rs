@@ -118,6 +118,8 @@ pub struct Program {
     calls_by_callee: HashMap<String, Vec<usize>>,
     /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
     calls_by_address_arg: HashMap<String, Vec<usize>>,
+    /// Calls by the array of an `&arr[k]` argument, for init calls of array elements.
+    calls_by_element_arg: HashMap<String, Vec<usize>>,
     /// Whether each macro name is defined with the active defines (computed once).
     defined: HashMap<String, bool>,
     /// What each macro name is known to be (defined, undefined, or either).
@@ -153,6 +155,7 @@ impl Program {
             calls: Vec::new(),
             calls_by_callee: HashMap::new(),
             calls_by_address_arg: HashMap::new(),
+            calls_by_element_arg: HashMap::new(),
             defined: HashMap::new(),
             defined_tri: HashMap::new(),
             includes: Vec::new(),
@@ -272,6 +275,17 @@ impl Program {
                     let list = self.calls_by_address_arg.entry(a.to_string()).or_default();
                     if list.last() != Some(&i) {
                         list.push(i);
+                    }
+                    if let ExprKind::Unary { arg, .. } = &a.kind {
+                        if let ExprKind::Index { base, .. } = &arg.kind {
+                            let list = self
+                                .calls_by_element_arg
+                                .entry(base.to_string())
+                                .or_default();
+                            if list.last() != Some(&i) {
+                                list.push(i);
+                            }
+                        }
                     }
                 }
             }
@@ -557,6 +571,15 @@ impl Program {
     pub fn calls_passing(&self, address: &str) -> impl Iterator<Item = &CallSite> {
         self.calls_by_address_arg
             .get(address)
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.calls[i])
+    }
+
+    /// Calls that pass the address of an element of `array` (`&array[k]`).
+    pub fn calls_passing_element_of(&self, array: &str) -> impl Iterator<Item = &CallSite> {
+        self.calls_by_element_arg
+            .get(array)
             .into_iter()
             .flatten()
             .map(|&i| &self.calls[i])

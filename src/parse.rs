@@ -783,26 +783,7 @@ impl Lower<'_> {
             .unwrap_or_else(|| format!("<anon@{}>", node.start_byte()));
         if let Some(body) = field_child(node, field::BODY) {
             let mut fields = Vec::new();
-            for field in named_children(body) {
-                if field.kind() != kind::FIELD_DECLARATION {
-                    continue;
-                }
-                let base = field_child(field, field::TYPE)
-                    .map(|t| self.type_of(t))
-                    .unwrap_or(CType::Unknown("?".into()));
-                let mut cursor = field.walk();
-                let declarators: Vec<Node> = field
-                    .children_by_field_name("declarator", &mut cursor)
-                    .collect();
-                for d in declarators {
-                    if let Some((fname, fty, _, _)) = self.declarator(d, base.clone()) {
-                        fields.push(Param {
-                            name: fname,
-                            ty: fty,
-                        });
-                    }
-                }
-            }
+            self.struct_fields(body, &mut fields, 0);
             let span = self.span(node);
             self.ir.structs.push(StructDef {
                 name: name.clone(),
@@ -811,6 +792,83 @@ impl Lower<'_> {
             });
         }
         name
+    }
+
+    /// The fields of a struct body, including those under `#if` branches (every branch:
+    /// the types matter, not which branch is built), and the macros defined among them.
+    fn struct_fields(&mut self, body: Node, fields: &mut Vec<Param>, depth: u32) {
+        if depth > 16 {
+            return;
+        }
+        for field in named_children(body) {
+            match field.kind() {
+                kind::FIELD_DECLARATION => {}
+                kind::PREPROC_DEF => {
+                    self.macro_def(field, &Condition::default(), false);
+                    continue;
+                }
+                kind::PREPROC_FUNCTION_DEF => {
+                    self.macro_def(field, &Condition::default(), true);
+                    continue;
+                }
+                kind::PREPROC_IF | kind::PREPROC_IFDEF => {
+                    for (_, items) in self.preproc_branches(field, &Condition::default()) {
+                        for item in items {
+                            if item.kind() == kind::FIELD_DECLARATION {
+                                self.field_declaration(item, fields);
+                            } else if matches!(
+                                item.kind(),
+                                kind::PREPROC_IF | kind::PREPROC_IFDEF | kind::PREPROC_DEF
+                            ) {
+                                // Nested groups and definitions: read as the body is.
+                                self.struct_fields_item(item, fields, depth + 1);
+                            }
+                        }
+                    }
+                    continue;
+                }
+                _ => continue,
+            }
+            self.field_declaration(field, fields);
+        }
+    }
+
+    fn struct_fields_item(&mut self, item: Node, fields: &mut Vec<Param>, depth: u32) {
+        match item.kind() {
+            kind::PREPROC_DEF => self.macro_def(item, &Condition::default(), false),
+            _ => {
+                if depth > 16 {
+                    return;
+                }
+                for (_, items) in self.preproc_branches(item, &Condition::default()) {
+                    for inner in items {
+                        if inner.kind() == kind::FIELD_DECLARATION {
+                            self.field_declaration(inner, fields);
+                        } else {
+                            self.struct_fields_item(inner, fields, depth + 1);
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    fn field_declaration(&mut self, field: Node, fields: &mut Vec<Param>) {
+        let base = field_child(field, field::TYPE)
+            .map(|t| self.type_of(t))
+            .unwrap_or(CType::Unknown("?".into()));
+        let mut cursor = field.walk();
+        let declarators: Vec<Node> = field
+            .children_by_field_name("declarator", &mut cursor)
+            .collect();
+        for d in declarators {
+            if let Some((fname, fty, _, _)) = self.declarator(d, base.clone()) {
+                fields.push(Param {
+                    name: fname,
+                    ty: fty,
+                });
+            }
+        }
     }
 
     fn enum_specifier(&mut self, node: Node) {

@@ -569,7 +569,58 @@ impl<'p> Evaluator<'p> {
         }
         let key = format!("place {text}");
         let file = scope.function.map(|f| f.file);
-        self.guarded(key, |ev| ev.place_from_writes(expr, &text, file))
+        self.guarded(key, |ev| ev.place_from_writes(expr, &text, file, scope))
+    }
+
+    /// The calls that pass the address of `base` (`init(&base, ...)`), with the argument's
+    /// position; for an element `arr[k]`, also calls passing `&arr[j]` where `j` is the
+    /// same constant as `k` is where the place is read (`&pids[PID_ROLL]` for
+    /// `pids[PID_GROUP + i]` with `i` bound).
+    fn init_calls(&mut self, base: &Expr, scope: &Scope) -> Vec<(crate::index::CallSite, usize)> {
+        let address = format!("&{base}");
+        let mut out: Vec<(crate::index::CallSite, usize)> = Vec::new();
+        for call in self.program.calls_passing(&address) {
+            if let Some(p) = call.args.iter().position(|a| a.to_string() == address) {
+                out.push((call.clone(), p));
+            }
+        }
+        let ExprKind::Index { base: array, index } = &base.kind else {
+            return out;
+        };
+        let Ok(k) = self.eval(index, scope) else {
+            return out;
+        };
+        let array_text = array.to_string();
+        let calls: Vec<crate::index::CallSite> = self
+            .program
+            .calls_passing_element_of(&array_text)
+            .cloned()
+            .collect();
+        for call in calls {
+            for (p, a) in call.args.iter().enumerate() {
+                let ExprKind::Unary {
+                    op: UnaryOp::AddrOf,
+                    arg,
+                } = &a.kind
+                else {
+                    continue;
+                };
+                let ExprKind::Index { base: b, index: j } = &arg.kind else {
+                    continue;
+                };
+                if b.to_string() != array_text {
+                    continue;
+                }
+                let caller_scope = Scope::in_function(call.caller);
+                let same = self
+                    .eval(j, &caller_scope)
+                    .is_ok_and(|v| v.as_f64() == k.as_f64());
+                if same && !out.iter().any(|(c, q)| c.span == call.span && *q == p) {
+                    out.push((call.clone(), p));
+                }
+            }
+        }
+        out
     }
 
     fn place_from_writes(
@@ -577,6 +628,7 @@ impl<'p> Evaluator<'p> {
         expr: &Expr,
         text: &str,
         file: Option<usize>,
+        scope: &Scope,
     ) -> Result<Num, Unknown> {
         let ty = self.place_type(expr).unwrap_or(CType::Double);
         let mut values: Vec<Num> = Vec::new();
@@ -606,16 +658,13 @@ impl<'p> Evaluator<'p> {
         // `init(&X, ...)` where init writes `p->field = ...`.
         if let ExprKind::Field { base, field, .. } = &expr.kind {
             let base_text = base.to_string();
-            let address = format!("&{base}");
-            let calls: Vec<_> = self.program.calls_passing(&address).cloned().collect();
-            for call in calls {
+            let calls = self.init_calls(base, scope);
+            for (call, position) in calls {
                 let Some(callee) = self.program.resolve_call(call.caller, &call.callee) else {
                     continue;
                 };
                 let function = self.program.function(callee).clone();
-                let Some(position) = call.args.iter().position(|a| a.to_string() == address) else {
-                    continue;
-                };
+                let address = call.args[position].to_string();
                 let Some(param) = function.params.get(position) else {
                     continue;
                 };

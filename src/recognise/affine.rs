@@ -29,6 +29,9 @@ pub enum AtomKind {
     /// `2^count` (or `2^-count` when `negative`) for a shift whose count is not a constant
     /// that C defines here: a factor whose value is unknown.
     Pow2 { count: V, negative: bool },
+    /// An input that is a product of several leaves (`scaling * raw` weighted by the
+    /// coefficient): one input signal.
+    Product(Vec<AtomId>),
 }
 
 /// What the reader may take a shift's count for.
@@ -59,6 +62,18 @@ pub struct Affine {
 }
 
 impl Affine {
+    /// The graph values an atom is made of (a product's factors, a shift's count).
+    pub fn values_of(&self, a: AtomId) -> Vec<V> {
+        match self.atoms.get(a as usize) {
+            Some(AtomKind::Leaf(v)) | Some(AtomKind::Inverse(v, _)) => vec![*v],
+            Some(AtomKind::Pow2 { count, .. }) => vec![*count],
+            Some(AtomKind::Product(factors)) => {
+                factors.iter().flat_map(|f| self.values_of(*f)).collect()
+            }
+            None => Vec::new(),
+        }
+    }
+
     pub fn leaf(&self, a: AtomId) -> Option<V> {
         match self.atoms.get(a as usize) {
             Some(AtomKind::Leaf(v)) => Some(*v),
@@ -212,6 +227,19 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
             break;
         }
     }
+    // An input may be a product of signals (`scaling * raw * (1 - a)`): every factor of a
+    // monomial that the coefficient does not have is part of the input.
+    let mut atoms = atoms;
+    if found.is_none() {
+        if let Some(inputs) = product_inputs(&monomials, &alpha, &mut atoms) {
+            let sum = inputs
+                .iter()
+                .fold(Poly::default(), |acc, (_, w)| acc.add(w));
+            if identical(&sum, &alpha, &atoms, g) {
+                found = Some(inputs);
+            }
+        }
+    }
     let (inputs, structural) = match found {
         Some(i) => (i, true),
         None => (fallback?, false),
@@ -297,6 +325,13 @@ impl Reader<'_> {
             Node::Float { bits, single } => {
                 let x = f64::from_bits(bits);
                 Some(Poly::constant(if single { x as f32 as f64 } else { x }))
+            }
+            Node::Stored { value, .. } if !self.carries(value) => {
+                // A constant stored earlier in the body is that constant.
+                match self.lin(value, depth + 1) {
+                    Some(p) if p.as_constant().is_some() => Some(p),
+                    _ => self.leaf(v),
+                }
             }
             Node::Local { value, .. } | Node::Stored { value, .. } => {
                 if self.carries(value) {
@@ -482,6 +517,53 @@ fn cancel_inverses(m: &mut Monomial, atoms: &[AtomKind]) {
     }
 }
 
+/// The inputs when each monomial's factors that alpha does not have make one input (a
+/// product atom when there are several).
+fn product_inputs(
+    monomials: &[(Monomial, f64)],
+    alpha: &Poly,
+    atoms: &mut Vec<AtomKind>,
+) -> Option<Vec<(AtomId, Poly)>> {
+    let in_alpha = alpha.atoms();
+    let mut out: Vec<(AtomId, Poly)> = Vec::new();
+    for (m, c) in monomials {
+        let (weight_atoms, signal): (Vec<AtomId>, Vec<AtomId>) =
+            m.iter().partition(|a| in_alpha.contains(a));
+        let leaves_only = signal
+            .iter()
+            .all(|a| matches!(atoms.get(*a as usize), Some(AtomKind::Leaf(_))));
+        if signal.is_empty() || !leaves_only {
+            return None;
+        }
+        let input = if signal.len() == 1 {
+            signal[0]
+        } else {
+            let kind = AtomKind::Product(signal.clone());
+            match atoms.iter().position(|k| *k == kind) {
+                Some(i) => i as AtomId,
+                None => {
+                    if atoms.len() >= MAX_ATOMS {
+                        return None;
+                    }
+                    atoms.push(kind);
+                    (atoms.len() - 1) as AtomId
+                }
+            }
+        };
+        let mut w = Poly::default();
+        w.terms.insert(weight_atoms, *c);
+        match out.iter_mut().find(|(a, _)| *a == input) {
+            Some((_, acc)) => *acc = acc.add(&w),
+            None => out.push((input, w)),
+        }
+    }
+    (out.len() > 1
+        || out
+            .iter()
+            .any(|(a, _)| matches!(atoms[*a as usize], AtomKind::Product(_))))
+    .then_some(out)
+}
+
 /// Groups the monomials by their chosen input atom: input -> weight polynomial.
 fn weights(monomials: &[(Monomial, f64)], pick: &[AtomId]) -> Vec<(AtomId, Poly)> {
     let mut out: Vec<(AtomId, Poly)> = Vec::new();
@@ -528,6 +610,12 @@ pub fn atom_values(atoms: &[AtomKind], leaves: &[f64]) -> Vec<f64> {
     let mut values = leaves.to_vec();
     for _ in 0..4 {
         for (i, kind) in atoms.iter().enumerate() {
+            if let AtomKind::Product(factors) = kind {
+                values[i] = factors
+                    .iter()
+                    .map(|a| values.get(*a as usize).copied().unwrap_or(f64::NAN))
+                    .product();
+            }
             if let AtomKind::Inverse(_, den) = kind {
                 let d = den.evaluate(&|a| values.get(a as usize).copied().unwrap_or(f64::NAN));
                 values[i] = 1.0 / d;

@@ -15,13 +15,14 @@
 //! guard is known false never runs the update (a derivative filter configured with a zero
 //! derivative gain) and is not an instance.
 
-use super::affine::{self, AtomKind, Shift};
+use super::affine::{self, Shift};
 use super::judge;
 use super::values::{Node, V};
 use super::walk::{self, Helpers, StateKind, Summaries, WalkResult};
 use super::{Note, RecogniseOptions, Smoother};
 use crate::eval::Evaluator;
 use crate::index::{FuncRef, MacroRef, Program};
+use crate::ir::{Expr, ExprKind};
 use std::collections::BTreeSet;
 
 /// The candidates of a walk that stand: not continued by a later update of the same state
@@ -54,7 +55,9 @@ pub fn live_candidates(w: &WalkResult) -> Vec<usize> {
         }
     }
     (0..n)
-        .filter(|i| !dropped[*i] && w.candidates[*i].instance.is_none())
+        .filter(|i| {
+            !dropped[*i] && w.candidates[*i].instance.is_none() && !w.candidates[*i].overwritten
+        })
         .collect()
 }
 
@@ -68,7 +71,7 @@ fn signature(w: &WalkResult, a: &affine::Affine) -> String {
             .map(|(m, c)| {
                 let mut names: Vec<String> = m
                     .iter()
-                    .map(|x| judge::atom_text(&w.graph, &a.atoms[*x as usize]))
+                    .map(|x| judge::atom_text(&w.graph, &a.atoms, *x))
                     .collect();
                 names.sort();
                 format!("{c:.9}*{}", names.join("*"))
@@ -80,13 +83,7 @@ fn signature(w: &WalkResult, a: &affine::Affine) -> String {
     let mut inputs: Vec<String> = a
         .inputs
         .iter()
-        .map(|(x, wp)| {
-            format!(
-                "{}:{}",
-                judge::atom_text(&w.graph, &a.atoms[*x as usize]),
-                text(wp)
-            )
-        })
+        .map(|(x, wp)| format!("{}:{}", judge::atom_text(&w.graph, &a.atoms, *x), text(wp)))
         .collect();
     inputs.sort();
     format!("{}|{}", text(&a.alpha), inputs.join(","))
@@ -110,20 +107,56 @@ fn state_param(program: &Program, f: FuncRef, w: &WalkResult, i: usize) -> Optio
         .position(|p| p.name == name)
 }
 
-/// Whether a candidate of function `f` is put in at `f`'s calls instead of being reported
-/// at its own line.
-pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize) -> bool {
-    let Some(root_param) = state_param(program, f, w, i) else {
-        return false;
-    };
-    let function = program.function(f);
-    let has_calls = program.calls_to(&function.name).any(|call| {
-        program.resolve_call(call.caller, &call.callee) == Some(f)
-            && program.condition_possible(&program.function(call.caller).condition)
-    });
-    if !has_calls {
-        return false;
+/// How a filter function's update is put in at its calls.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Hand {
+    /// The parameter the state is reached through.
+    pub root_param: usize,
+    /// Every call is an instance (it supplies an input or a coefficient); otherwise only
+    /// the calls that supply the object itself (not a pointer the caller was given).
+    pub every_call: bool,
+}
+
+/// Whether an argument hands on the caller's own parameter (`S`, `&*p`, `(T *)p`) rather
+/// than an object of the caller's.
+pub fn passes_own_parameter(program: &Program, caller: FuncRef, arg: &Expr) -> bool {
+    let mut e = arg;
+    loop {
+        match &e.kind {
+            ExprKind::Cast { arg, .. } => e = arg,
+            ExprKind::Ident(n) => {
+                return program.function(caller).params.iter().any(|p| &p.name == n)
+            }
+            _ => return false,
+        }
     }
+}
+
+/// Whether a candidate of function `f` is also put in at `f`'s calls, and how.
+pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize) -> Option<Hand> {
+    let root_param = state_param(program, f, w, i)?;
+    let function = program.function(f);
+    let calls: Vec<&crate::index::CallSite> = program
+        .calls_to(&function.name)
+        .filter(|call| {
+            program.resolve_call(call.caller, &call.callee) == Some(f)
+                && program.condition_possible(&program.function(call.caller).condition)
+        })
+        .collect();
+    if calls.is_empty() {
+        return None;
+    }
+    let hand = |every_call| {
+        Some(Hand {
+            root_param,
+            every_call,
+        })
+    };
+    let supplies_object = calls.iter().any(|call| {
+        call.args
+            .get(root_param)
+            .is_some_and(|a| !passes_own_parameter(program, call.caller, a))
+    });
     let g = &w.graph;
     let c = &w.candidates[i];
     let root_value = w.params.get(root_param).copied();
@@ -136,32 +169,35 @@ pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize)
         .collect();
     // The coefficient lives in the object the call passes (`f->k`, set by an init), or
     // the call supplies an input or a coefficient.
-    let Some(aff) = affine::read(g, c.value, c.state, &|_, _| Shift::NotKnown) else {
-        return false;
-    };
+    let aff = affine::read(g, c.value, c.state, &|_, _| Shift::NotKnown)?;
     // An integrator or an accumulator is not a smoother at any call.
     if aff.alpha.is_zero() {
-        return false;
+        return None;
     }
-    let Some(root_value) = root_value else {
-        return false;
-    };
+    let root_value = root_value?;
     if !other_params.is_empty()
         && g.reaches_any(c.value, &|x| other_params.contains(&x), walk::REACH_LIMIT)
     {
-        return true;
+        return hand(true);
     }
     let mut weight_atoms = aff.alpha.atoms();
     for (_, wp) in &aff.inputs {
         weight_atoms.extend(wp.atoms());
     }
-    weight_atoms.iter().any(|a| {
-        let v = match &aff.atoms[*a as usize] {
-            AtomKind::Leaf(v) | AtomKind::Inverse(v, _) => *v,
-            AtomKind::Pow2 { count, .. } => *count,
-        };
-        g.spelled_with(v, &|x| x == root_value, walk::REACH_LIMIT)
-    })
+    let per_object = weight_atoms.iter().any(|a| {
+        aff.values_of(*a)
+            .into_iter()
+            .any(|v| g.spelled_with(v, &|x| x == root_value, walk::REACH_LIMIT))
+    });
+    if per_object {
+        return hand(true);
+    }
+    // The calls that pass an object of their own make instances of it (each model keeps
+    // its own state); calls that pass a pointer they were given add nothing.
+    if supplies_object {
+        return hand(false);
+    }
+    None
 }
 
 /// The functions that call a filter function, in a fixed order.
@@ -218,18 +254,79 @@ pub fn instances_in(
     (out, notes, w.used_macros.clone())
 }
 
-/// False when one of the update's guards is known false where it stands.
+/// False when one of the update's guards is known false where it stands: for every value
+/// of the loop counters it reads, when it sits in counted loops.
 pub fn guards_may_hold(program: &Program, w: &WalkResult, i: usize) -> bool {
     let c = &w.candidates[i];
     for g in &c.guards {
         if matches!(w.graph.node(*g), Node::Text(_)) {
             continue;
         }
-        let mut ev = Evaluator::new(program);
-        if let Ok(v) = judge::eval_value(&mut ev, w, *g, c.span) {
-            if v.is_zero() {
+        if guard_always_false(program, w, *g, c.span) {
+            return false;
+        }
+    }
+    true
+}
+
+/// Whether a guard is zero where it stands, for each value the loop counters it reads take
+/// (at most a few dozen combinations are tried; past that, it may hold).
+fn guard_always_false(program: &Program, w: &WalkResult, guard: V, span: crate::ir::Span) -> bool {
+    let g = &w.graph;
+    // The counters in the guard, with their ranges.
+    let mut counters: Vec<(String, Vec<i128>)> = Vec::new();
+    let mut stack = vec![guard];
+    let mut seen = std::collections::HashSet::new();
+    while let Some(v) = stack.pop() {
+        if !seen.insert(v) || seen.len() > 2000 {
+            continue;
+        }
+        if let Some(ind) = w.inductions.get(&v) {
+            let mut ev = Evaluator::new(program);
+            let start = judge::eval_value(&mut ev, w, ind.start, span).ok();
+            let bound = judge::eval_value(&mut ev, w, ind.bound, span).ok();
+            let (Some(start), Some(bound)) = (start, bound) else {
+                return false;
+            };
+            let (a, b) = (start.as_f64(), bound.as_f64());
+            let end = if ind.inclusive { b } else { b - 1.0 };
+            if !(a.fract() == 0.0 && b.fract() == 0.0 && end >= a && end - a < 64.0) {
                 return false;
             }
+            counters.push((g.display(v, 60), ((a as i128)..=(end as i128)).collect()));
+        }
+        stack.extend(g.children(v));
+    }
+    let combos: usize = counters.iter().map(|(_, r)| r.len()).product();
+    if combos > 64 {
+        return false;
+    }
+    let Some((expr, scope)) = judge::atom_scope(w, guard, span) else {
+        return false;
+    };
+    for k in 0..combos.max(1) {
+        let mut scope = scope.clone();
+        let mut rem = k;
+        for (name, range) in &counters {
+            let value = range[rem % range.len()];
+            rem /= range.len();
+            let int = crate::eval::num::Num::int(
+                value,
+                crate::ir::IntType {
+                    bits: program.options.target.int_bits,
+                    signed: true,
+                },
+            );
+            scope.values.insert(name.clone(), int);
+        }
+        let mut ev = Evaluator::new(program);
+        let r = ev.eval(&expr, &scope);
+        if std::env::var("TAUSCAN_PROBE").is_ok() {
+            eprintln!("guard {expr} with {:?} -> {r:?}", scope.values);
+        }
+        match r {
+            Ok(v) if v.is_zero() => {}
+            _ => return false,
         }
     }
     true

@@ -67,12 +67,20 @@ impl Reading<'_> {
 
     /// The atom as C text.
     pub fn atom_text(&self, a: AtomId) -> String {
-        atom_text(&self.walk.graph, &self.affine.atoms[a as usize])
+        atom_text(&self.walk.graph, &self.affine.atoms, a)
     }
 }
 
-pub fn atom_text(g: &Graph, atom: &AtomKind) -> String {
+pub fn atom_text(g: &Graph, atoms: &[AtomKind], a: AtomId) -> String {
+    let Some(atom) = atoms.get(a as usize) else {
+        return "?".into();
+    };
     match atom {
+        AtomKind::Product(factors) => factors
+            .iter()
+            .map(|f| atom_text(g, atoms, *f))
+            .collect::<Vec<_>>()
+            .join(" * "),
         AtomKind::Leaf(v) => g.display(*v, 120),
         AtomKind::Inverse(v, _) => format!("1/({})", g.display(*v, 120)),
         AtomKind::Pow2 { count, negative } => {
@@ -251,7 +259,7 @@ fn evaluate_atoms(
                     Err(u) => unknown.push(u),
                 }
             }
-            AtomKind::Inverse(..) => {}
+            AtomKind::Inverse(..) | AtomKind::Product(_) => {}
         }
     }
     let mut values = affine::atom_values(&aff.atoms, &leaves);
@@ -570,8 +578,10 @@ fn build(
                 .unwrap_or(CType::Double)
         })
         .collect();
+    // An input that is a product of signals has no one value to drive: no simulation.
+    let all_leaves = inputs.len() == reading.affine.inputs.len();
     let simulation = match (&reading.state_type, verdict.form) {
-        (Some(ty), form) if form != Form::MovingAverage => compile_update(
+        (Some(ty), form) if form != Form::MovingAverage && all_leaves => compile_update(
             program,
             walk,
             c,
@@ -623,7 +633,12 @@ fn build(
         update: format!("{state_text} = {}", g.display(c.value, 400)),
         update_expr: g.to_expr(c.value, c.span, false, 4000),
         state_type: reading.state_type.clone(),
-        inputs: inputs.iter().map(|v| g.display(*v, 200)).collect(),
+        inputs: reading
+            .affine
+            .inputs
+            .iter()
+            .map(|(a, _)| reading.atom_text(*a))
+            .collect(),
         simulation,
         upstream: None,
         through_branch: reading.affine.through_branch,

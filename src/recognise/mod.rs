@@ -317,8 +317,8 @@ fn first_pass(
         for i in live {
             // A filter function's update is listed where it is written (its coefficient
             // as far as the function alone says) and again at each call.
-            if instances::hands_to_callers(program, f, &w, i) {
-                keep_for_callers.push(i);
+            if let Some(hand) = instances::hands_to_callers(program, f, &w, i) {
+                keep_for_callers.push((i, hand));
             }
             if let Some(s) = judge::judge(program, &w, i, options) {
                 part.smoothers.push(s);
@@ -366,20 +366,28 @@ pub fn explain(program: &Program, options: &RecogniseOptions, only: &str) -> Vec
             for (i, c) in w.candidates.iter().enumerate() {
                 let verdict = if !live.contains(&i) {
                     "continued by a later update of the same state".to_string()
-                } else if instances::hands_to_callers(program, f, &w, i) {
-                    "put in at the calls of this function".to_string()
                 } else {
-                    match judge::judge_explained(program, &w, i, options) {
+                    let handed = if instances::hands_to_callers(program, f, &w, i).is_some() {
+                        " (and put in at the calls of this function)"
+                    } else {
+                        ""
+                    };
+                    let judged = match judge::judge_explained(program, &w, i, options) {
                         Ok(s) => format!(
-                            "{} alpha {}",
+                            "{} alpha {} dc {} inputs {:?}",
                             s.form.name(),
                             s.alpha
                                 .value()
                                 .map(|a| format!("{a}"))
-                                .unwrap_or_else(|| "unknown".into())
+                                .unwrap_or_else(|| "unknown".into()),
+                            s.dc_gain
+                                .map(|d| format!("{d}"))
+                                .unwrap_or_else(|| "?".into()),
+                            s.inputs
                         ),
                         Err(why) => format!("not a smoother: {why}"),
-                    }
+                    };
+                    format!("{judged}{handed}")
                 };
                 lines.push(format!(
                     "{}:{} {}() {:?} {} = {}: {verdict}",
@@ -394,6 +402,48 @@ pub fn explain(program: &Program, options: &RecogniseOptions, only: &str) -> Vec
             for (span, note) in &w.notes {
                 lines.push(format!("{}:{} note: {note}", program.paths[fi], span.line));
             }
+        }
+    }
+    // The instances the file's functions make of filter functions elsewhere.
+    let mut summaries = walk::Summaries::default();
+    for fi in 0..program.files.len() {
+        for (f, s) in first_pass(program, fi, &helpers, options).summaries {
+            summaries.updates.insert(f, std::sync::Arc::new(s));
+        }
+    }
+    for f in instances::callers(program, &summaries) {
+        if !program.paths[f.file].ends_with(only) {
+            continue;
+        }
+        let setup = walk::Setup {
+            program,
+            function: Some(f),
+            file: f.file,
+            helpers: Some(&helpers),
+            summaries: Some(&summaries),
+            budget: FUNCTION_BUDGET,
+        };
+        let w = walk::walk_function(&setup);
+        for (i, c) in w.candidates.iter().enumerate() {
+            let Some(inst) = &c.instance else { continue };
+            let guards: Vec<String> = c.guards.iter().map(|g| w.graph.display(*g, 80)).collect();
+            let verdict = if !instances::guards_may_hold(program, &w, i) {
+                "a guard is false here".to_string()
+            } else {
+                match judge::judge_explained(program, &w, i, options) {
+                    Ok(s) => format!("{} alpha {:?}", s.form.name(), s.alpha.value()),
+                    Err(why) => format!("not a smoother: {why}"),
+                }
+            };
+            lines.push(format!(
+                "{}:{} {}() instance of {}(): {} guards {:?}: {verdict}",
+                program.paths[f.file],
+                c.span.line,
+                program.function(f).name,
+                program.function(inst.callee).name,
+                w.graph.display(c.state, 80),
+                guards
+            ));
         }
     }
     lines

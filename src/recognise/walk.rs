@@ -88,6 +88,9 @@ pub struct Candidate {
     pub state_expr: Option<Expr>,
     /// Order of the walk's events, for the round-trip test of local objects.
     pub seq: u32,
+    /// A later store on the same path replaced the value before anything read it: the
+    /// update never reaches the next call (a filter whose state is zeroed right after).
+    pub overwritten: bool,
 }
 
 /// What a walk found.
@@ -117,6 +120,17 @@ pub struct WalkResult {
     pub loop_epochs: Vec<u32>,
     /// The loop each carried local belongs to.
     pub carried_by: HashMap<V, u32>,
+    /// Loop counters (`for (i = 0; i < N; i++)`): the carried value of `i` with its start
+    /// and bound, so a guard can be judged for each value the counter takes.
+    pub inductions: HashMap<V, Induction>,
+}
+
+/// A loop counter that steps by one from `start` while below `bound` (or up to it).
+#[derive(Debug, Clone, Copy)]
+pub struct Induction {
+    pub start: V,
+    pub bound: V,
+    pub inclusive: bool,
 }
 
 /// The helper functions' returned formulas, computed once each, on first use.
@@ -200,6 +214,7 @@ pub struct FunctionUpdates {
 pub struct UpdateTemplate {
     pub state: V,
     pub place: V,
+    pub hand: super::instances::Hand,
     pub value: V,
     pub guards: Vec<V>,
     pub span: Span,
@@ -272,6 +287,7 @@ struct Walker<'a> {
     epoch: u32,
     loop_epochs: Vec<u32>,
     carried_by: HashMap<V, u32>,
+    inductions: HashMap<V, Induction>,
 }
 
 /// Walks a function body.
@@ -361,6 +377,7 @@ impl<'a> Walker<'a> {
             epoch: 0,
             loop_epochs: Vec::new(),
             carried_by: HashMap::new(),
+            inductions: HashMap::new(),
         }
     }
 
@@ -391,6 +408,7 @@ impl<'a> Walker<'a> {
             params: self.param_values,
             loop_epochs: self.loop_epochs,
             carried_by: self.carried_by,
+            inductions: self.inductions,
         }
     }
 
@@ -722,6 +740,10 @@ impl<'a> Walker<'a> {
         if let Some(c) = self.resummed_loop(init, cond, body, span) {
             self.push_candidate(c);
         }
+        let counter = loop_counter(init, cond, step);
+        let counter_values = counter.as_ref().map(|(_, start, bound, inclusive)| {
+            (self.rvalue(start), self.rvalue(bound), *inclusive)
+        });
         let mut assigned = Vec::new();
         assigned_names(std::slice::from_ref(body), &mut assigned);
         if let Some(s) = step {
@@ -754,6 +776,20 @@ impl<'a> Walker<'a> {
             );
             frame.carried.insert(s, v);
             self.carried_by.insert(v, id);
+            if let (Some((counter_name, ..)), Some((start, bound, inclusive))) =
+                (&counter, counter_values)
+            {
+                if *counter_name == name {
+                    self.inductions.insert(
+                        v,
+                        Induction {
+                            start,
+                            bound,
+                            inclusive,
+                        },
+                    );
+                }
+            }
         }
         self.loops.push(frame);
         if let Some(c) = cond {
@@ -894,6 +930,7 @@ impl<'a> Walker<'a> {
             }),
             state_expr: Some((**base).clone()),
             seq: self.seq,
+            overwritten: false,
         })
     }
 
@@ -1344,6 +1381,7 @@ impl<'a> Walker<'a> {
                             resummed: None,
                             state_expr,
                             seq: self.seq,
+                            overwritten: false,
                         });
                         recorded = true;
                     }
@@ -1413,6 +1451,7 @@ impl<'a> Walker<'a> {
                         resummed: None,
                         state_expr: Some(target.clone()),
                         seq: self.seq,
+                        overwritten: false,
                     });
                 } else if !self.loops.is_empty() && !constant_step {
                     if let Some(previous) = self.previous_element(place, v) {
@@ -1432,7 +1471,21 @@ impl<'a> Walker<'a> {
                             resummed: None,
                             state_expr: Some(target.clone()),
                             seq: self.seq,
+                            overwritten: false,
                         });
+                    }
+                }
+                // An update stored on this path and replaced here before anything read it
+                // is dead.
+                if let Some(previous) = self.env.get(Key::Place(place)) {
+                    if let Node::Stored { value: stored, .. } = *self.g.node(previous.value) {
+                        if !self.g.reaches(v, previous.value, REACH_LIMIT) {
+                            for c in self.candidates.iter_mut() {
+                                if c.place == place && c.value == stored && c.instance.is_none() {
+                                    c.overwritten = true;
+                                }
+                            }
+                        }
                     }
                 }
                 let name = self.g.display(place, 200);
@@ -1607,6 +1660,7 @@ impl<'a> Walker<'a> {
             resummed: None,
             state_expr: Some(target.clone()),
             seq: self.seq,
+            overwritten: false,
         });
     }
 
@@ -1671,7 +1725,7 @@ impl<'a> Walker<'a> {
         }
         if let (Some(summaries), Some(f)) = (self.setup.summaries, target) {
             if let Some(updates) = summaries.updates.get(&f).cloned() {
-                self.instantiate(f, &updates, &vals, span);
+                self.instantiate(f, &updates, &vals, args, span);
             }
         }
         self.after_unknown_call(args);
@@ -1683,8 +1737,21 @@ impl<'a> Walker<'a> {
     /// that went into the call is remembered (a getter/setter round trip keeps it).
     fn after_unknown_call(&mut self, args: &[Expr]) {
         self.seq += 1;
+        // Memory the call can reach is forgotten. A static local of this function (or a
+        // local object) is out of its reach unless the call is handed its address.
+        let handed: Vec<String> = args
+            .iter()
+            .filter_map(|a| a.root_ident().map(str::to_string))
+            .collect();
         for p in self.env.places() {
-            self.env.remove(Key::Place(p));
+            let private = self.g.place_root(p).is_some_and(|(root, home, local)| {
+                home == self.home
+                    && (local || self.static_locals.contains(&root))
+                    && !handed.iter().any(|h| h == self.g.name(root))
+            });
+            if !private {
+                self.env.remove(Key::Place(p));
+            }
         }
         self.epoch += 1;
         for a in args {
@@ -1701,6 +1768,8 @@ impl<'a> Walker<'a> {
             if let ExprKind::Ident(n) = &arg.kind {
                 if self.is_env_local(n) {
                     let s = self.g.sym(n);
+                    // Also an object whose type the scan cannot see (a generated header).
+                    self.escapes.push((s, self.seq));
                     let v = self.fresh(s, false);
                     self.env.set(
                         Key::Local(s),
@@ -1714,11 +1783,7 @@ impl<'a> Walker<'a> {
             }
             if let Some(root) = own_object(arg) {
                 let s = self.g.sym(root);
-                if self
-                    .locals
-                    .get(&s)
-                    .is_some_and(|i| !i.is_static && i.aggregate)
-                {
+                if self.locals.get(&s).is_some_and(|i| !i.is_static) {
                     self.escapes.push((s, self.seq));
                 }
             }
@@ -1746,7 +1811,14 @@ impl<'a> Walker<'a> {
     }
 
     /// Puts a filter function's updates in at one of its calls.
-    fn instantiate(&mut self, callee: FuncRef, updates: &FunctionUpdates, args: &[V], span: Span) {
+    fn instantiate(
+        &mut self,
+        callee: FuncRef,
+        updates: &FunctionUpdates,
+        args: &[V],
+        arg_exprs: &[Expr],
+        span: Span,
+    ) {
         if self.quiet > 0 || updates.params.len() != args.len() {
             return;
         }
@@ -1758,6 +1830,19 @@ impl<'a> Walker<'a> {
             .collect();
         let (site, _, macro_ref) = self.site(span);
         for t in &updates.templates {
+            // A call that hands on its own pointer makes no instance of an update whose
+            // calls supply nothing but the object.
+            if !t.hand.every_call {
+                let own = match (self.setup.function, arg_exprs.get(t.hand.root_param)) {
+                    (Some(caller), Some(a)) => {
+                        super::instances::passes_own_parameter(self.program, caller, a)
+                    }
+                    _ => true,
+                };
+                if own {
+                    continue;
+                }
+            }
             let mut memo = HashMap::new();
             let limit = 50_000;
             let Some(state) = self
@@ -1810,9 +1895,68 @@ impl<'a> Walker<'a> {
                 resummed: None,
                 state_expr: None,
                 seq: self.seq,
+                overwritten: false,
             });
         }
     }
+}
+
+/// `for (i = START; i < BOUND; i++)` (or `<=`, `++i`, `i += 1`): the counter's name, its
+/// start, its bound and whether the bound is included.
+fn loop_counter<'e>(
+    init: &'e [Stmt],
+    cond: Option<&'e Expr>,
+    step: Option<&'e Expr>,
+) -> Option<(String, &'e Expr, &'e Expr, bool)> {
+    let (name, start) = match init.first()? {
+        Stmt::Decl(d) => {
+            let d = d.first()?;
+            match &d.init {
+                Some(Initializer::Expr(e)) => (d.name.clone(), e),
+                _ => return None,
+            }
+        }
+        Stmt::Expr(Expr {
+            kind:
+                ExprKind::Assign {
+                    op: None,
+                    target,
+                    value,
+                },
+            ..
+        }) => match &target.kind {
+            ExprKind::Ident(n) => (n.clone(), &**value),
+            _ => return None,
+        },
+        _ => return None,
+    };
+    let ExprKind::Binary { op, lhs, rhs } = &cond?.kind else {
+        return None;
+    };
+    let inclusive = match op {
+        BinaryOp::Lt | BinaryOp::Ne => false,
+        BinaryOp::Le => true,
+        _ => return None,
+    };
+    if !matches!(&lhs.kind, ExprKind::Ident(n) if *n == name) {
+        return None;
+    }
+    let steps_by_one = match &step?.kind {
+        ExprKind::IncDec {
+            target,
+            increment: true,
+        } => matches!(&target.kind, ExprKind::Ident(n) if *n == name),
+        ExprKind::Assign {
+            op: Some(BinaryOp::Add),
+            target,
+            value,
+        } => {
+            matches!(&target.kind, ExprKind::Ident(n) if *n == name)
+                && matches!(value.kind, ExprKind::Int { value: 1, .. })
+        }
+        _ => false,
+    };
+    steps_by_one.then_some((name, start, &**rhs, inclusive))
 }
 
 /// Whether an expression reads the identifier `name` (not as a field name).
@@ -1873,7 +2017,10 @@ fn assigned_in_one(e: &Expr, out: &mut Vec<String>) {
 
 /// Builds the summaries of the filter functions: each function's updates whose state is
 /// reached through one of its parameters, over a graph of their own.
-pub fn summarise(result: &WalkResult, keep: &[usize]) -> Option<FunctionUpdates> {
+pub fn summarise(
+    result: &WalkResult,
+    keep: &[(usize, super::instances::Hand)],
+) -> Option<FunctionUpdates> {
     if keep.is_empty() {
         return None;
     }
@@ -1885,7 +2032,7 @@ pub fn summarise(result: &WalkResult, keep: &[usize]) -> Option<FunctionUpdates>
         params.push(g.import(&result.graph, *p, &none, 4, &mut memo)?);
     }
     let mut templates = Vec::new();
-    for &i in keep {
+    for &(i, hand) in keep {
         let c = &result.candidates[i];
         let Some(state) = g.import(&result.graph, c.state, &none, 50_000, &mut memo) else {
             continue;
@@ -1904,6 +2051,7 @@ pub fn summarise(result: &WalkResult, keep: &[usize]) -> Option<FunctionUpdates>
         templates.push(UpdateTemplate {
             state,
             place,
+            hand,
             value,
             guards,
             span: c.span,

@@ -24,9 +24,8 @@ pub fn reject(r: &Reading) -> Option<()> {
     // with a time constant (`m += (u - m) / n` with `n++`).
     let counter = r.weight_atoms().iter().any(|&a| {
         let leaves = match &r.affine.atoms[a as usize] {
-            super::super::affine::AtomKind::Leaf(v) => vec![*v],
-            super::super::affine::AtomKind::Inverse(v, _) => vec![*v],
             super::super::affine::AtomKind::Pow2 { .. } => Vec::new(),
+            _ => r.affine.values_of(a),
         };
         leaves.iter().any(|&v| {
             // A place stepped by a constant somewhere (`n++`), read here directly or as
@@ -64,12 +63,10 @@ pub fn reject(r: &Reading) -> Option<()> {
         .collect();
     if !others.is_empty() {
         let coupled = r.weight_atoms().iter().any(|&a| {
-            let v = match &r.affine.atoms[a as usize] {
-                super::super::affine::AtomKind::Leaf(v) => *v,
-                super::super::affine::AtomKind::Inverse(v, _) => *v,
-                super::super::affine::AtomKind::Pow2 { count, .. } => *count,
-            };
-            g.any_within(v, &|x| others.contains(&g.place_of(x)), 2000)
+            r.affine
+                .values_of(a)
+                .into_iter()
+                .any(|v| g.any_within(v, &|x| others.contains(&g.place_of(x)), 2000))
         });
         if coupled {
             return None;
