@@ -796,6 +796,14 @@ impl<'p> Evaluator<'p> {
         if let Some(v) = self.math_call(name, args, scope)? {
             return Ok(v);
         }
+        // `(T)(x)` read as a call of a typedef name: the cast.
+        if args.len() == 1 && self.program.is_type_name(name) {
+            let v = self.eval(&args[0], scope)?;
+            let ty = self
+                .program
+                .resolve_type(&crate::parse::type_from_name(name));
+            return Ok(v.convert(&ty, self.target()));
+        }
         if let Some(m) = self.program.active_macro_in(name, self.file) {
             if let Some(params) = &m.params {
                 let m = m.clone();

@@ -32,6 +32,10 @@ pub enum AtomKind {
     /// An input that is a product of several leaves (`scaling * raw` weighted by the
     /// coefficient): one input signal.
     Product(Vec<AtomId>),
+    /// An input that is a sum of signals with unit weights, as written under one constant
+    /// coefficient (`0.05f * max * (threshold - level)`): the written sub-expression, when
+    /// it is one, and the signal polynomial.
+    Composite { node: Option<V>, signal: Poly },
 }
 
 /// What the reader may take a shift's count for.
@@ -70,6 +74,11 @@ impl Affine {
             Some(AtomKind::Product(factors)) => {
                 factors.iter().flat_map(|f| self.values_of(*f)).collect()
             }
+            Some(AtomKind::Composite { signal, .. }) => signal
+                .atoms()
+                .iter()
+                .flat_map(|f| self.values_of(*f))
+                .collect(),
             None => Vec::new(),
         }
     }
@@ -240,6 +249,38 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
             }
         }
     }
+    // An input that is a whole expression of signals under one constant coefficient: the
+    // rest divided by alpha has only unit weights (`0.95*y + 0.05*k*(a - b)`).
+    if found.is_none() {
+        // Only for a coefficient of a low-pass: a growth (`y = 2*y + e`) has no input to
+        // approach.
+        if let Some(c) = alpha.as_constant().filter(|c| *c > 0.0 && *c < 2.0) {
+            let signal = rest_without_constant(&rest).scale(1.0 / c);
+            // Two or more signals with unit weights, or one signal negated (`0.99f*y -
+            // 0.01f*max` approaches -max).
+            let unit = signal
+                .terms
+                .values()
+                .all(|w| ((w.abs() - 1.0).abs()) < 1e-6)
+                && (signal.terms.len() >= 2 || signal.terms.values().all(|w| *w < 0.0));
+            let leaves_only = signal.atoms().iter().all(|a| {
+                matches!(
+                    atoms.get(*a as usize),
+                    Some(AtomKind::Leaf(_)) | Some(AtomKind::Product(_))
+                )
+            });
+            if unit && leaves_only && atoms.len() < MAX_ATOMS {
+                let node = if signal.terms.len() >= 2 {
+                    signal_node(g, value, &r.carries)
+                } else {
+                    None
+                };
+                atoms.push(AtomKind::Composite { node, signal });
+                let id = (atoms.len() - 1) as AtomId;
+                found = Some(vec![(id, alpha.clone())]);
+            }
+        }
+    }
     let (inputs, structural) = match found {
         Some(i) => (i, true),
         None => (fallback?, false),
@@ -366,12 +407,26 @@ impl Reader<'_> {
                         return None;
                     }
                 }
+                // One side carries the state. When the condition tests it, the other side is a
+                // clamp of it (`if (t > max) t = max;`); when the condition does not, the
+                // other side must be a seed or a reset and this side the state left alone
+                // (`if (!init) y = u;`). A side that computed something from the state under
+                // a condition that does not test it is an update of that path only.
+                let one_side = |this: &Self, side: V| {
+                    this.carries(c) || this.g.strip_aliases(side) == this.state
+                };
                 match (self.carries(a), self.carries(b)) {
                     (true, false) => {
+                        if !one_side(self, a) {
+                            return None;
+                        }
                         self.through_branch = true;
                         self.lin(a, depth + 1)
                     }
                     (false, true) => {
+                        if !one_side(self, b) {
+                            return None;
+                        }
                         self.through_branch = true;
                         self.lin(b, depth + 1)
                     }
@@ -517,6 +572,54 @@ fn cancel_inverses(m: &mut Monomial, atoms: &[AtomKind]) {
     }
 }
 
+/// The polynomial without its constant term.
+fn rest_without_constant(rest: &Poly) -> Poly {
+    let mut out = rest.clone();
+    out.terms.remove(&Vec::new());
+    out
+}
+
+/// The written sub-expression that holds the signals of an update: the one summand of the
+/// top-level sum that does not read the state, with its constant factor taken off.
+fn signal_node(g: &Graph, value: V, carries: &HashSet<V>) -> Option<V> {
+    let mut summands = Vec::new();
+    let mut stack = vec![value];
+    while let Some(v) = stack.pop() {
+        if summands.len() > 8 {
+            return None;
+        }
+        match g.node(v) {
+            Node::Cast(_, a) if carries.contains(&v) => stack.push(*a),
+            Node::Local { value, .. } | Node::Stored { value, .. } if carries.contains(&v) => {
+                stack.push(*value)
+            }
+            Node::Binary(BinaryOp::Add | BinaryOp::Sub, a, b) if carries.contains(&v) => {
+                stack.push(*a);
+                stack.push(*b);
+            }
+            _ if !carries.contains(&v) => summands.push(v),
+            _ => {}
+        }
+    }
+    let [one] = summands.as_slice() else {
+        return None;
+    };
+    // `c * expr` or `expr * c`: the constant is the coefficient, the rest the signal.
+    match g.node(*one) {
+        Node::Binary(BinaryOp::Mul, a, b)
+            if matches!(g.node(*a), Node::Int { .. } | Node::Float { .. }) =>
+        {
+            Some(*b)
+        }
+        Node::Binary(BinaryOp::Mul, a, b)
+            if matches!(g.node(*b), Node::Int { .. } | Node::Float { .. }) =>
+        {
+            Some(*a)
+        }
+        _ => Some(*one),
+    }
+}
+
 /// The inputs when each monomial's factors that alpha does not have make one input (a
 /// product atom when there are several).
 fn product_inputs(
@@ -615,6 +718,10 @@ pub fn atom_values(atoms: &[AtomKind], leaves: &[f64]) -> Vec<f64> {
                     .iter()
                     .map(|a| values.get(*a as usize).copied().unwrap_or(f64::NAN))
                     .product();
+            }
+            if let AtomKind::Composite { signal, .. } = kind {
+                values[i] =
+                    signal.evaluate(&|a| values.get(a as usize).copied().unwrap_or(f64::NAN));
             }
             if let AtomKind::Inverse(_, den) = kind {
                 let d = den.evaluate(&|a| values.get(a as usize).copied().unwrap_or(f64::NAN));

@@ -81,6 +81,19 @@ pub fn atom_text(g: &Graph, atoms: &[AtomKind], a: AtomId) -> String {
             .map(|f| atom_text(g, atoms, *f))
             .collect::<Vec<_>>()
             .join(" * "),
+        AtomKind::Composite { node: Some(v), .. } => g.display(*v, 160),
+        AtomKind::Composite { signal, .. } => {
+            let mut parts = Vec::new();
+            for (m, c) in &signal.terms {
+                let names: Vec<String> = m.iter().map(|x| atom_text(g, atoms, *x)).collect();
+                parts.push(format!(
+                    "{}{}",
+                    if *c < 0.0 { "- " } else { "+ " },
+                    names.join(" * ")
+                ));
+            }
+            parts.join(" ").trim_start_matches("+ ").to_string()
+        }
         AtomKind::Leaf(v) => g.display(*v, 120),
         AtomKind::Inverse(v, _) => format!("1/({})", g.display(*v, 120)),
         AtomKind::Pow2 { count, negative } => {
@@ -259,7 +272,7 @@ fn evaluate_atoms(
                     Err(u) => unknown.push(u),
                 }
             }
-            AtomKind::Inverse(..) | AtomKind::Product(_) => {}
+            AtomKind::Inverse(..) | AtomKind::Product(_) | AtomKind::Composite { .. } => {}
         }
     }
     let mut values = affine::atom_values(&aff.atoms, &leaves);

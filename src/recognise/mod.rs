@@ -364,8 +364,16 @@ pub fn explain(program: &Program, options: &RecogniseOptions, only: &str) -> Vec
             let w = walk::walk_function(&setup);
             let live = instances::live_candidates(&w);
             for (i, c) in w.candidates.iter().enumerate() {
-                let verdict = if !live.contains(&i) {
-                    "continued by a later update of the same state".to_string()
+                let verdict = if c.overwritten {
+                    "replaced on the same path before anything reads it".to_string()
+                } else if !live.contains(&i) {
+                    let by: Vec<u32> = w
+                        .candidates
+                        .iter()
+                        .filter(|later| later.supersedes.contains(&i))
+                        .map(|later| later.span.line)
+                        .collect();
+                    format!("continued by a later update of the same state (lines {by:?})")
                 } else {
                     let handed = if instances::hands_to_callers(program, f, &w, i).is_some() {
                         " (and put in at the calls of this function)"

@@ -625,6 +625,10 @@ impl<'a> Walker<'a> {
             }
         }
         let two_way = alternatives.len() == 2;
+        // A place that the branches leave different is not followed through the merge: what
+        // comes after reads its current value (a new version), so an update after an `if`
+        // that seeds or updates the place on one branch is an update of its own.
+        let mut places_differ = false;
         for key in keys {
             let before = self.env.get(key);
             let values: Vec<Option<Binding>> = outcomes
@@ -663,6 +667,13 @@ impl<'a> Walker<'a> {
             } else {
                 None
             };
+            if let (Key::Place(_), Some(v)) = (key, merged) {
+                if matches!(self.g.node(v), Node::Phi { .. }) {
+                    places_differ = true;
+                    self.env.remove(key);
+                    continue;
+                }
+            }
             match (key, merged) {
                 (Key::Place(p), Some(v)) if v == self.g.version(p, self.epoch) => {
                     self.env.remove(key)
@@ -674,6 +685,9 @@ impl<'a> Walker<'a> {
                 }
                 (Key::Place(_), None) => self.env.remove(key),
             }
+        }
+        if places_differ {
+            self.epoch += 1;
         }
     }
 
@@ -1225,6 +1239,8 @@ impl<'a> Walker<'a> {
             ExprKind::Index { base, index } => {
                 let b = match self.place(base) {
                     PlaceRef::Local(_) => self.rvalue(base),
+                    // An array is its own storage: indexing it reads no pointer.
+                    PlaceRef::Mem(v) if self.is_array(base) => v,
                     PlaceRef::Mem(v) => self.load(PlaceRef::Mem(v)),
                 };
                 let i = self.rvalue(index);
@@ -1246,6 +1262,21 @@ impl<'a> Walker<'a> {
             }
             _ => PlaceRef::Mem(self.rvalue(e)),
         }
+    }
+
+    /// Whether an lvalue is an array (its name is its address, not a pointer to load).
+    fn is_array(&mut self, e: &Expr) -> bool {
+        if let ExprKind::Ident(name) = &e.kind {
+            let s = self.g.sym(name);
+            if let Some(info) = self.locals.get(&s) {
+                return matches!(info.ty, CType::Array(..));
+            }
+            if self.params.contains_key(&s) {
+                return false;
+            }
+        }
+        let ty = eval::place_type(self.program, self.setup.function, e);
+        matches!(ty, Some(CType::Array(..)))
     }
 
     /// A name that a macro defines as a place (`#define STATE g_vent.y`).
@@ -1664,6 +1695,26 @@ impl<'a> Walker<'a> {
         });
     }
 
+    /// Whether `from` reads `target` without going through a merge of branches.
+    fn reaches_on_path(&self, from: V, target: V) -> bool {
+        let g = &self.g;
+        let mut seen = std::collections::HashSet::new();
+        let mut stack = vec![from];
+        while let Some(v) = stack.pop() {
+            if v == target {
+                return true;
+            }
+            if !seen.insert(v) || seen.len() > REACH_LIMIT {
+                continue;
+            }
+            if matches!(g.node(v), Node::Phi { .. }) {
+                continue;
+            }
+            stack.extend(g.children(v));
+        }
+        false
+    }
+
     fn push_candidate(&mut self, mut c: Candidate) {
         if self.quiet > 0 {
             return;
@@ -1671,11 +1722,13 @@ impl<'a> Walker<'a> {
         for (i, old) in self.candidates.iter().enumerate() {
             // A continuation reads the same state as the earlier update and reads the
             // earlier update's value on the way (not merely through an input).
+            // It reads it on the same path: not through a merge of branches (an update made
+            // on one branch is not continued by what follows the merge).
             if old.place == c.place
                 && old.state == c.state
                 && old.instance.is_none()
                 && c.instance.is_none()
-                && self.g.reaches(c.value, old.value, REACH_LIMIT)
+                && self.reaches_on_path(c.value, old.value)
             {
                 c.supersedes.push(i);
             }
@@ -1697,6 +1750,15 @@ impl<'a> Walker<'a> {
                 if def.params.is_some() {
                     return self.expand_macro_call(r, name, args, span);
                 }
+            }
+            // `(u32_t)(x)` reads as a call of `u32_t` in C's grammar until the typedef is
+            // known: it is a cast.
+            if args.len() == 1 && self.program.is_type_name(name) {
+                let a = self.rvalue(&args[0]);
+                let ty = self
+                    .program
+                    .resolve_type(&crate::parse::type_from_name(name));
+                return self.g.cast(&ty, a);
             }
         }
         let vals: Vec<V> = args.iter().map(|a| self.rvalue(a)).collect();

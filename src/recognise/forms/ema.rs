@@ -91,7 +91,10 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
     }
     // Weights that do not sum to alpha: only numbers can say what it is.
     let (alpha, w) = (r.alpha?, r.input_weight?);
-    if !(alpha > 0.0 && alpha < 2.0) || w == 0.0 || !w.is_finite() {
+    // A gain of the wrong sign turns the input around: a rotation or a coupled pair, not
+    // a smoother.
+    let low_pass = alpha > 0.0 && alpha < 2.0 && w.is_finite() && w / alpha > 0.0;
+    if !low_pass {
         return None;
     }
     // An input weighted by the time step is being integrated, even when the numbers

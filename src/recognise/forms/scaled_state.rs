@@ -9,6 +9,7 @@
 //! written `acc += u - ...` shape). A scale of at least 1.5 is required; below it, a gain
 //! that misses one is a bug to report, not a design.
 
+use super::super::affine::AtomKind;
 use super::super::judge::Reading;
 use super::super::Form;
 use super::Verdict;
@@ -39,9 +40,21 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
             None
         }
         _ => {
-            // `acc += u - acc/N` with N set at run time: whole-number input weights and an
-            // alpha made of names. The scale is N, unknown here.
-            if unit_weights && a.alpha.as_constant().is_none() && !a.alpha.is_zero() {
+            // `acc += u - acc/N` (or `- (acc >> k)`) with N set at run time: whole-number
+            // input weights and an alpha that is one over something. The scale is N,
+            // unknown here. (`val = val*base + digit` has alpha 1 - base: no.)
+            let one_over = a.alpha.terms.len() == 1
+                && a.alpha.terms.iter().all(|(m, c)| {
+                    *c > 0.0
+                        && !m.is_empty()
+                        && m.iter().all(|x| {
+                            matches!(
+                                a.atoms[*x as usize],
+                                AtomKind::Inverse(..) | AtomKind::Pow2 { negative: true, .. }
+                            )
+                        })
+                });
+            if unit_weights && one_over {
                 let mut v = Verdict::new(Form::ScaledState);
                 v.dc_gain = Some(1.0);
                 return Some(v);
