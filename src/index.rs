@@ -27,6 +27,9 @@ pub struct Write {
     pub op: Option<BinaryOp>,
     pub value: Expr,
     pub span: Span,
+    /// The write is a statement of the function's body itself, not inside a branch or a
+    /// loop: it happens on every call, after the ones written before it.
+    pub unconditional: bool,
 }
 
 #[derive(Debug, Clone)]
@@ -237,11 +240,12 @@ impl Program {
         use rayon::prelude::*;
         // Each file's writes and calls on its own worker, then joined in file order, so
         // the tables are the same on any number of threads.
-        let per_file: Vec<(Vec<Write>, Vec<CallSite>)> = self
+        let this: &Program = self;
+        let per_file: Vec<(Vec<Write>, Vec<CallSite>)> = this
             .files
             .par_iter()
             .enumerate()
-            .map(|(fi, file)| writes_and_calls_of(fi, file))
+            .map(|(fi, file)| writes_and_calls_of(this, fi, file))
             .collect();
         let mut writes = Vec::with_capacity(per_file.iter().map(|(w, _)| w.len()).sum());
         let mut calls = Vec::with_capacity(per_file.iter().map(|(_, c)| c.len()).sum());
@@ -1107,7 +1111,7 @@ pub fn canonical_place(expr: &Expr) -> String {
 }
 
 /// The writes to non-locals and the calls of one file's functions.
-fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) {
+fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) {
     let mut writes = Vec::new();
     let mut calls = Vec::new();
     for (i, f) in file.functions.iter().enumerate() {
@@ -1120,7 +1124,20 @@ fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) 
             locals.insert(p.name.clone());
         }
         let is_local = |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(n));
+        let mut top_level: HashSet<u32> = HashSet::new();
+        top_level_statements(&f.body, &mut top_level);
+        let first = writes.len();
+        // Writes count where the default build takes them (`#ifdef TUNE` overrides are not
+        // the configuration's value); calls count in every branch that may be built.
+        let mut built: HashSet<u32> = HashSet::new();
+        visit_stmts_built(program, &f.body, &mut |e| {
+            if matches!(e.kind, ExprKind::Assign { .. } | ExprKind::IncDec { .. }) {
+                built.insert(e.span.start);
+            }
+        });
+        let is_built = |e: &Expr| built.contains(&e.span.start);
         visit_stmts(&f.body, &mut |e| match &e.kind {
+            ExprKind::Assign { .. } | ExprKind::IncDec { .. } if !is_built(e) => {}
             ExprKind::Assign { target, .. } if is_local(target) => {}
             ExprKind::IncDec { target, .. } if is_local(target) => {}
             ExprKind::Assign { op, target, value } => writes.push(Write {
@@ -1129,6 +1146,7 @@ fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) 
                 op: *op,
                 value: (**value).clone(),
                 span: e.span,
+                unconditional: false,
             }),
             ExprKind::IncDec { target, increment } => writes.push(Write {
                 function: fref,
@@ -1147,6 +1165,7 @@ fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) 
                     e.span,
                 ),
                 span: e.span,
+                unconditional: false,
             }),
             ExprKind::Call { callee, args } => {
                 if let ExprKind::Ident(name) = &callee.kind {
@@ -1160,8 +1179,58 @@ fn writes_and_calls_of(fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) 
             }
             _ => {}
         });
+        for w in &mut writes[first..] {
+            w.unconditional = top_level.contains(&w.span.start);
+        }
     }
     (writes, calls)
+}
+
+/// The start offsets of the assignments that are statements of the body itself (or of
+/// plain blocks in it), not under a branch or a loop.
+fn top_level_statements(stmts: &[Stmt], out: &mut HashSet<u32>) {
+    for stmt in stmts {
+        match stmt {
+            Stmt::Expr(e) => {
+                let mut add = |x: &Expr| {
+                    if matches!(x.kind, ExprKind::Assign { .. }) {
+                        out.insert(x.span.start);
+                    }
+                };
+                match &e.kind {
+                    ExprKind::Comma(items) => items.iter().for_each(&mut add),
+                    _ => add(e),
+                }
+            }
+            Stmt::Block(items) => top_level_statements(items, out),
+            _ => {}
+        }
+    }
+}
+
+/// The writes that can still hold when their function returns: of several unconditional
+/// writes to one place in one function, only the last (the others are overwritten on the
+/// way: `k = 0.05f; k = 1.0f - k;`).
+pub fn effective_writes(writes: Vec<Write>) -> Vec<Write> {
+    let mut out: Vec<Write> = Vec::with_capacity(writes.len());
+    for w in writes {
+        if w.unconditional {
+            let replaced = out.iter().position(|o| {
+                o.unconditional
+                    && o.function == w.function
+                    && o.target == w.target
+                    && o.span.file == w.span.file
+            });
+            match replaced {
+                Some(i) if out[i].span.start < w.span.start => out[i] = w,
+                Some(_) => {}
+                None => out.push(w),
+            }
+        } else {
+            out.push(w);
+        }
+    }
+    out
 }
 
 /// The names of a body's non-static local variables.
@@ -1193,6 +1262,64 @@ fn collect_plain_locals(stmts: &[Stmt], out: &mut HashSet<String>) {
                 }
             }
             _ => {}
+        }
+    }
+}
+
+/// Visits the expressions of a statement list that the default build compiles: of a `#if`
+/// group inside a function, only the branch that holds.
+fn visit_stmts_built<'a>(program: &Program, stmts: &'a [Stmt], visit: &mut dyn FnMut(&'a Expr)) {
+    for stmt in stmts {
+        match stmt {
+            Stmt::Conditional(branches) => {
+                let mut earlier: Vec<CondBranch> = Vec::new();
+                for (branch, body) in branches {
+                    let cond = Condition {
+                        levels: vec![CondLevel {
+                            branch: branch.clone(),
+                            earlier: earlier.clone(),
+                        }],
+                    };
+                    if program.condition_holds(&cond) {
+                        visit_stmts_built(program, body, visit);
+                        break;
+                    }
+                    earlier.push(branch.clone());
+                }
+            }
+            Stmt::Block(items) => visit_stmts_built(program, items, visit),
+            Stmt::If {
+                cond,
+                then,
+                otherwise,
+            } => {
+                cond.walk(visit);
+                visit_stmts_built(program, std::slice::from_ref(then), visit);
+                if let Some(o) = otherwise {
+                    visit_stmts_built(program, std::slice::from_ref(o), visit);
+                }
+            }
+            Stmt::Loop {
+                init,
+                cond,
+                step,
+                body,
+                ..
+            } => {
+                visit_stmts_built(program, init, visit);
+                if let Some(c) = cond {
+                    c.walk(visit);
+                }
+                if let Some(s) = step {
+                    s.walk(visit);
+                }
+                visit_stmts_built(program, std::slice::from_ref(body), visit);
+            }
+            Stmt::Switch { scrutinee, body } => {
+                scrutinee.walk(visit);
+                visit_stmts_built(program, std::slice::from_ref(body), visit);
+            }
+            other => visit_stmt(other, visit),
         }
     }
 }

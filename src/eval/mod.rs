@@ -96,11 +96,19 @@ pub struct Evaluator<'p> {
     /// to be where C's truncating division (C11 6.5.5) changes it. Everything else keeps
     /// the C rules, conversions to a declared type included.
     pub real_arithmetic: bool,
+    /// A field reached through a pointer parameter takes the value every write to such a
+    /// field gives (a configuration shared by every object of the type). Off where a wrong
+    /// value would remove something (judging a guard).
+    pub shared_fields: bool,
     pub chain: Vec<ChainStep>,
     pub flags: Flags,
     /// The file whose includes decide which definition of a macro is meant: the file of
     /// the innermost scope with a function.
     file: Option<usize>,
+    /// The file of the outermost evaluation: where the value is needed. A field of a
+    /// struct reached through pointers is looked up among that file's writes first (the
+    /// demodulator of this file sets its own fields).
+    origin: Option<usize>,
     depth: u32,
     steps: u32,
     active: Vec<String>,
@@ -120,9 +128,11 @@ impl<'p> Evaluator<'p> {
             program,
             macro_override: None,
             real_arithmetic: false,
+            shared_fields: true,
             chain: Vec::new(),
             flags: Flags::default(),
             file: None,
+            origin: None,
             depth: 0,
             steps: 0,
             active: Vec::new(),
@@ -175,6 +185,9 @@ impl<'p> Evaluator<'p> {
         let outer_file = self.file;
         if let Some(f) = scope.function {
             self.file = Some(f.file);
+            if self.origin.is_none() {
+                self.origin = Some(f.file);
+            }
         }
         let result = self.eval_inner(expr, scope);
         self.file = outer_file;
@@ -470,12 +483,13 @@ impl<'p> Evaluator<'p> {
 
     fn global_value(&mut self, decl: &LocalDecl) -> Result<Num, Unknown> {
         let ty = self.program.resolve_type(&decl.ty);
-        let writes: Vec<_> = self
-            .program
-            .writes_seen_from(&decl.name, decl.span.file.0 as usize)
-            .into_iter()
-            .cloned()
-            .collect();
+        let writes: Vec<_> = crate::index::effective_writes(
+            self.program
+                .writes_seen_from(&decl.name, decl.span.file.0 as usize)
+                .into_iter()
+                .cloned()
+                .collect(),
+        );
         if !decl.is_const && !writes.is_empty() {
             return self.value_from_writes(&decl.name, &writes, &ty);
         }
@@ -552,24 +566,61 @@ impl<'p> Evaluator<'p> {
         {
             return Err(Unknown::new(format!("`{text}` is an address")));
         }
-        // A field reached through a parameter of this function is set per call.
+        // A field reached through a parameter of this function is set per call, unless
+        // every write to a field of that name through such a pointer (the origin file's
+        // first) gives one value: a configuration every object of the type shares.
         if let Some(root) = expr.root_ident() {
             if let Some(f) = scope.function {
                 let function = self.program.function(f);
                 if function.params.iter().any(|p| p.name == root) {
-                    return Err(Unknown::runtime(
+                    let per_call = Unknown::runtime(
                         &text,
                         format!(
                             "`{text}` is reached through a parameter of {}()",
                             function.name
                         ),
-                    ));
+                    );
+                    if !self.shared_fields || !matches!(expr.kind, ExprKind::Field { .. }) {
+                        return Err(per_call);
+                    }
+                    let key = format!("place {text}");
+                    let file = Some(f.file);
+                    let shared = self.guarded(key, |ev| {
+                        let writes = ev.writes_for(&text, file);
+                        if writes.is_empty() {
+                            return Err(per_call.clone());
+                        }
+                        ev.place_from_writes(expr, &text, file, scope)
+                    });
+                    return shared.map_err(|_| per_call);
                 }
             }
         }
         let key = format!("place {text}");
         let file = scope.function.map(|f| f.file);
         self.guarded(key, |ev| ev.place_from_writes(expr, &text, file, scope))
+    }
+
+    /// The writes to a place as seen from `file`: the origin file's own first (where the
+    /// value is needed), then `file`'s, then every file's (for a place that is not static).
+    fn writes_for(&self, text: &str, file: Option<usize>) -> Vec<crate::index::Write> {
+        if let (Some(origin), Some(f)) = (self.origin, file) {
+            if origin != f {
+                let own: Vec<_> = self.program.writes_in_file(text, origin).cloned().collect();
+                if !own.is_empty() {
+                    return own;
+                }
+            }
+        }
+        match file {
+            Some(f) => self
+                .program
+                .writes_seen_from(text, f)
+                .into_iter()
+                .cloned()
+                .collect(),
+            None => self.program.writes_to(text).cloned().collect(),
+        }
     }
 
     /// The calls that pass the address of `base` (`init(&base, ...)`), with the argument's
@@ -633,15 +684,7 @@ impl<'p> Evaluator<'p> {
         let ty = self.place_type(expr).unwrap_or(CType::Double);
         let mut values: Vec<Num> = Vec::new();
         let mut unknown: Option<Unknown> = None;
-        let direct: Vec<_> = match file {
-            Some(f) => self
-                .program
-                .writes_seen_from(text, f)
-                .into_iter()
-                .cloned()
-                .collect(),
-            None => self.program.writes_to(text).cloned().collect(),
-        };
+        let direct: Vec<_> = crate::index::effective_writes(self.writes_for(text, file));
         for w in &direct {
             if w.op.is_some() {
                 return Err(Unknown::runtime(
@@ -669,12 +712,13 @@ impl<'p> Evaluator<'p> {
                     continue;
                 };
                 let inner_place = format!("{}->{field}", param.name);
-                let writes: Vec<_> = self
-                    .program
-                    .writes_in_file(&inner_place, callee.file)
-                    .filter(|w| w.function == callee)
-                    .cloned()
-                    .collect();
+                let writes: Vec<_> = crate::index::effective_writes(
+                    self.program
+                        .writes_in_file(&inner_place, callee.file)
+                        .filter(|w| w.function == callee)
+                        .cloned()
+                        .collect(),
+                );
                 if writes.is_empty() {
                     continue;
                 }
@@ -971,8 +1015,16 @@ impl<'p> Evaluator<'p> {
     }
 }
 
+/// Adds a value unless one equal to it (to the precision of a `float`, for floating values:
+/// `0.080 * 0.2` in double and `0.080f * 0.2f` are one configuration) is there.
 fn push_unique(values: &mut Vec<Num>, v: Num) {
-    if !values.contains(&v) {
+    let same = |a: &Num| match (a, &v) {
+        (Num::Float { value: x, .. }, Num::Float { value: y, .. }) => {
+            (x - y).abs() <= 1e-6 * x.abs().max(y.abs())
+        }
+        _ => *a == v,
+    };
+    if !values.iter().any(same) {
         values.push(v);
     }
 }

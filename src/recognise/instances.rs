@@ -283,6 +283,7 @@ fn guard_always_false(program: &Program, w: &WalkResult, guard: V, span: crate::
         }
         if let Some(ind) = w.inductions.get(&v) {
             let mut ev = Evaluator::new(program);
+            ev.shared_fields = false;
             let start = judge::eval_value(&mut ev, w, ind.start, span).ok();
             let bound = judge::eval_value(&mut ev, w, ind.bound, span).ok();
             let (Some(start), Some(bound)) = (start, bound) else {
@@ -320,6 +321,7 @@ fn guard_always_false(program: &Program, w: &WalkResult, guard: V, span: crate::
             scope.values.insert(name.clone(), int);
         }
         let mut ev = Evaluator::new(program);
+        ev.shared_fields = false;
         let r = ev.eval(&expr, &scope);
         if std::env::var("TAUSCAN_PROBE").is_ok() {
             eprintln!("guard {expr} with {:?} -> {r:?}", scope.values);

@@ -351,6 +351,14 @@ pub fn judge_explained(
             .map(|(_, w)| w.evaluate(&|x| values[x as usize]))
             .sum();
         reading.input_weight = w.is_finite().then_some(w);
+        // When the weights sum to alpha identically, both sides are alpha; the input's
+        // weight is the better-conditioned one (`1 - 0.9999f` loses four digits to
+        // cancellation, `0.0001f` none).
+        if reading.affine.structural {
+            if let Some(w) = reading.input_weight {
+                reading.alpha = Some(w);
+            }
+        }
     }
     if storage == Storage::LoopLocal && !input_changes_per_iteration(&reading) {
         return Err("a loop iteration on a value that does not change between iterations");
