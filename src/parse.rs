@@ -163,6 +163,188 @@ fn parse_tree(source: &[u8]) -> Option<Tree> {
     })
 }
 
+/// Parses only `range` of `source` (byte offsets and lines stay those of the file).
+fn parse_range(source: &[u8], range: std::ops::Range<usize>) -> Option<Tree> {
+    let point = |offset: usize| {
+        let before = &source[..offset];
+        let row = before.iter().filter(|b| **b == b'\n').count();
+        let column = offset
+            - before
+                .iter()
+                .rposition(|b| *b == b'\n')
+                .map_or(0, |p| p + 1);
+        tree_sitter::Point { row, column }
+    };
+    let ts_range = tree_sitter::Range {
+        start_byte: range.start,
+        end_byte: range.end,
+        start_point: point(range.start),
+        end_point: point(range.end),
+    };
+    PARSER.with(|cell| {
+        let mut parser = cell.borrow_mut();
+        let parser = parser.as_mut()?;
+        parser.reset();
+        parser.set_included_ranges(&[ts_range]).ok()?;
+        let tree = parser.parse(source, None);
+        // Back to whole files for the next parse on this thread.
+        let _ = parser.set_included_ranges(&[]);
+        tree
+    })
+}
+
+/// The top-level function definitions of a file found by their braces alone: the text from
+/// after the previous top-level `;`, `}` or directive up to the `}` that closes a brace
+/// opened at depth 0, when the text before the brace has parentheses and no `=`. Each comes
+/// with the `#if` branches around it. Comments, strings and directives are skipped.
+fn function_regions(source: &[u8]) -> Vec<(std::ops::Range<usize>, Condition)> {
+    let mut out = Vec::new();
+    let mut depth = 0usize;
+    let mut item_start = 0usize;
+    let mut open_at = 0usize;
+    let mut conds: Vec<(CondBranch, Vec<CondBranch>)> = Vec::new();
+    // Braces are counted in the first branch of each `#if` group only: the branches after
+    // it repeat the same structure (`#if X  if (a) {  #else  if (b) {  #endif`).
+    let mut skipping_from: Option<usize> = None;
+    let mut i = 0;
+    let mut line_start = true;
+    let n = source.len();
+    while i < n {
+        let c = source[i];
+        if line_start {
+            let mut j = i;
+            while j < n && (source[j] == b' ' || source[j] == b'\t') {
+                j += 1;
+            }
+            line_start = false;
+            if j < n && source[j] == b'#' {
+                // A directive, with its continuation lines.
+                let mut k = j;
+                while k < n && !(source[k] == b'\n' && source[k - 1] != b'\\') {
+                    k += 1;
+                }
+                let text = String::from_utf8_lossy(source.get(j + 1..k).unwrap_or(&[])).to_string();
+                let text = text.trim();
+                let (word, rest) = text
+                    .split_once(|ch: char| ch.is_whitespace())
+                    .unwrap_or((text, ""));
+                let rest = rest.trim().to_string();
+                match word {
+                    "if" => conds.push((CondBranch::If(rest), Vec::new())),
+                    "ifdef" => conds.push((CondBranch::Ifdef(rest), Vec::new())),
+                    "ifndef" => conds.push((CondBranch::Ifndef(rest), Vec::new())),
+                    "elif" => {
+                        if let Some((b, earlier)) = conds.last_mut() {
+                            earlier.push(b.clone());
+                            *b = CondBranch::If(rest);
+                        }
+                        if depth > 0 && skipping_from.is_none() {
+                            skipping_from = Some(conds.len());
+                        }
+                    }
+                    "else" => {
+                        if let Some((b, earlier)) = conds.last_mut() {
+                            earlier.push(b.clone());
+                            *b = CondBranch::Else;
+                        }
+                        if depth > 0 && skipping_from.is_none() {
+                            skipping_from = Some(conds.len());
+                        }
+                    }
+                    "endif" => {
+                        if skipping_from == Some(conds.len()) {
+                            skipping_from = None;
+                        }
+                        conds.pop();
+                    }
+                    _ => {}
+                }
+                if depth == 0 {
+                    item_start = k;
+                }
+                i = k;
+                continue;
+            }
+        }
+        if skipping_from.is_some() && c != b'\n' {
+            i += 1;
+            continue;
+        }
+        match c {
+            b'\n' => {
+                line_start = true;
+                i += 1;
+            }
+            b'/' if source.get(i + 1) == Some(&b'*') => {
+                let mut j = i + 2;
+                while j + 1 < n && !(source[j] == b'*' && source[j + 1] == b'/') {
+                    j += 1;
+                }
+                i = (j + 2).min(n);
+            }
+            b'/' if source.get(i + 1) == Some(&b'/') => {
+                while i < n && source[i] != b'\n' {
+                    i += 1;
+                }
+            }
+            b'"' | b'\'' => {
+                let quote = c;
+                i += 1;
+                while i < n && source[i] != quote && source[i] != b'\n' {
+                    if source[i] == b'\\' {
+                        i += 1;
+                    }
+                    i += 1;
+                }
+                i += 1;
+            }
+            b'{' => {
+                if depth == 0 {
+                    open_at = i;
+                }
+                depth += 1;
+                i += 1;
+            }
+            b'}' => {
+                depth = depth.saturating_sub(1);
+                i += 1;
+                if depth == 0 {
+                    // A function's header ends with its parameter list (a struct's with its
+                    // name, an initialiser has `=`).
+                    let header = source.get(item_start..open_at).unwrap_or(&[]);
+                    let trimmed = header
+                        .iter()
+                        .rposition(|b| !b.is_ascii_whitespace())
+                        .map(|p| &header[..=p])
+                        .unwrap_or(&[]);
+                    let looks_like_function = trimmed.ends_with(b")")
+                        && trimmed.contains(&b'(')
+                        && !header.contains(&b'=');
+                    if looks_like_function {
+                        let condition = Condition {
+                            levels: conds
+                                .iter()
+                                .map(|(b, earlier)| CondLevel {
+                                    branch: b.clone(),
+                                    earlier: earlier.clone(),
+                                })
+                                .collect(),
+                        };
+                        out.push((item_start..i, condition));
+                    }
+                    item_start = i;
+                }
+            }
+            b';' if depth == 0 => {
+                item_start = i + 1;
+                i += 1;
+            }
+            _ => i += 1,
+        }
+    }
+    out
+}
+
 /// Blanks comments inside preprocessor directives (keeping every byte's position and the
 /// newlines): the grammar reads `#define K (3 /* note */)` as an error, and firmware writes
 /// such comments all the time. Comments elsewhere are kept (they carry `tauscan:` tags).
@@ -230,14 +412,69 @@ fn blank_directive_comments(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
     std::borrow::Cow::Owned(out)
 }
 
+/// Blanks `#include MACRO_NAME` lines (keeping every byte's position): the grammar reads
+/// only quoted and bracketed paths, and an include it cannot read can make the whole `#if`
+/// group around it (often the whole file) one error. The file a macro names is not known
+/// here anyway.
+fn blank_computed_includes(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
+    if !source
+        .windows(8)
+        .any(|w| w == b"#include" || w == b"include ")
+    {
+        return std::borrow::Cow::Borrowed(source);
+    }
+    let mut out: Option<Vec<u8>> = None;
+    let mut start = 0;
+    while start < source.len() {
+        let end = source[start..]
+            .iter()
+            .position(|b| *b == b'\n')
+            .map_or(source.len(), |p| start + p);
+        let line = &source[start..end];
+        let text = line
+            .iter()
+            .position(|b| *b != b' ' && *b != b'\t')
+            .map_or(&line[line.len()..], |p| &line[p..]);
+        if let Some(rest) = text.strip_prefix(b"#") {
+            let rest = trim_blank(rest);
+            if let Some(after) = rest.strip_prefix(b"include") {
+                let path = trim_blank(after);
+                let computed = path
+                    .first()
+                    .is_some_and(|c| c.is_ascii_alphabetic() || *c == b'_');
+                if computed && after.first().is_some_and(|c| *c == b' ' || *c == b'\t') {
+                    let buffer = out.get_or_insert_with(|| source.to_vec());
+                    for b in &mut buffer[start..end] {
+                        *b = b' ';
+                    }
+                }
+            }
+        }
+        start = end + 1;
+    }
+    match out {
+        Some(v) => std::borrow::Cow::Owned(v),
+        None => std::borrow::Cow::Borrowed(source),
+    }
+}
+
+fn trim_blank(bytes: &[u8]) -> &[u8] {
+    let skip = bytes
+        .iter()
+        .position(|b| *b != b' ' && *b != b'\t')
+        .unwrap_or(bytes.len());
+    &bytes[skip..]
+}
+
 /// Lowers one C file. Never fails; problems are returned inside the IR.
 pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
     let mut ir = FileIr {
         file,
         ..FileIr::default()
     };
-    let source = blank_directive_comments(source);
-    let source: &[u8] = &source;
+    let without_comments = blank_directive_comments(source);
+    let without_includes = blank_computed_includes(&without_comments);
+    let source: &[u8] = &without_includes;
     let Some(tree) = parse_tree(source) else {
         ir.problems.push(ParseProblem {
             span: Span {
@@ -258,9 +495,43 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
         first_error: None,
         nesting: 0,
         too_deep: None,
+        recovered: 0,
     };
     let root = tree.root_node();
     lower.top_items(root, &Condition::default());
+    // Where the grammar lost its way (a macro used as a statement prefix, an include it
+    // cannot read), whole functions can vanish into an error: each top-level function
+    // found by its braces that did not come out is parsed again on its own.
+    if root.has_error() && lower.errors > 0 {
+        let known: Vec<(u32, u32)> = lower
+            .ir
+            .functions
+            .iter()
+            .map(|f| (f.span.start, f.span.end))
+            .collect();
+        for (range, condition) in function_regions(source) {
+            // Read already when a function lies inside the region (one that overran it,
+            // swallowing what follows, does not count).
+            let covered = known
+                .iter()
+                .any(|(a, b)| (*a as usize) >= range.start && (*b as usize) <= range.end);
+            if covered {
+                continue;
+            }
+            let Some(region) = parse_range(source, range) else {
+                continue;
+            };
+            let before = lower.ir.functions.len();
+            for child in named_children(region.root_node()) {
+                if child.kind() == kind::FUNCTION_DEFINITION {
+                    lower.function(child, &condition);
+                }
+            }
+            if lower.ir.functions.len() > before {
+                lower.recovered += 1;
+            }
+        }
+    }
     let too_deep = lower.too_deep;
     let errors = lower.errors;
     let first_error = lower.first_error;
@@ -316,6 +587,7 @@ fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
         first_error: None,
         nesting: 0,
         too_deep: None,
+        recovered: 0,
     };
     lower.top_items(tree.root_node(), &Condition::default());
     if lower.errors > 0 || lower.too_deep.is_some() {
@@ -455,6 +727,8 @@ struct Lower<'a> {
     nesting: u32,
     /// The first place where nesting went past a limit and the inside was not read.
     too_deep: Option<Span>,
+    /// Functions read again on their own after the file's tree lost them.
+    recovered: u32,
 }
 
 fn named_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {

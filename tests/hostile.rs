@@ -116,6 +116,165 @@ fn self_referential_macros_expand_once_and_do_not_hang() {
     assert_sibling_reported(&run);
 }
 
+// Code that makes values grow: hash rounds, chains of updates, thousands of locals.
+
+/// An image check in the style of a message-digest round function: four 32-bit words
+/// mixed by 64 macro steps, each rotating and adding the others (the shape of MD5).
+fn digest_rounds_source() -> String {
+    let mut src = String::from(
+        "#include <stdint.h>\n\
+         #define MIX_F(x, y, z) (((x) & (y)) | (~(x) & (z)))\n\
+         #define MIX_G(x, y, z) (((x) & (z)) | ((y) & ~(z)))\n\
+         #define MIX_H(x, y, z) ((x) ^ (y) ^ (z))\n\
+         #define MIX_I(x, y, z) ((y) ^ ((x) | ~(z)))\n\
+         #define ROTL(x, n) (((x) << (n)) | ((x) >> (32 - (n))))\n\
+         #define ROUND(f, a, b, c, d, x, t, s) (a) += f((b), (c), (d)) + (x) + (t); \\\n\
+             (a) = ROTL((a), (s)); (a) += (b);\n\
+         static uint32_t vent_image_sum[4];\n\
+         void vent_image_block(const uint32_t *w)\n{\n\
+             uint32_t a = vent_image_sum[0], b = vent_image_sum[1];\n\
+             uint32_t c = vent_image_sum[2], d = vent_image_sum[3];\n",
+    );
+    let regs = ["a", "b", "c", "d"];
+    for i in 0..64usize {
+        let f = ["MIX_F", "MIX_G", "MIX_H", "MIX_I"][i / 16];
+        let r: Vec<&str> = (0..4).map(|k| regs[(k + 4 - i % 4) % 4]).collect();
+        src.push_str(&format!(
+            "    ROUND({f}, {}, {}, {}, {}, w[{}], 0x{:08x}u, {});\n",
+            r[0],
+            r[1],
+            r[2],
+            r[3],
+            i % 16,
+            (i as u64 * 2_654_435_761) & 0xffff_ffff,
+            7 + (i % 4) * 5
+        ));
+    }
+    src.push_str(
+        "    vent_image_sum[0] += a; vent_image_sum[1] += b;\n\
+             vent_image_sum[2] += c; vent_image_sum[3] += d;\n}\n",
+    );
+    src
+}
+
+/// The same in the style of a five-word digest with a message schedule computed by a
+/// macro inside the round macro (the shape of SHA-1): 80 rounds.
+fn schedule_rounds_source() -> String {
+    let mut src = String::from(
+        "#include <stdint.h>\n\
+         #define ROL(v, n) (((v) << (n)) | ((v) >> (32 - (n))))\n\
+         #define NEXT(i) (w[(i) & 15] = ROL(w[((i) + 13) & 15] ^ w[((i) + 8) & 15] ^ \\\n\
+             w[((i) + 2) & 15] ^ w[(i) & 15], 1))\n\
+         #define R0(v, x, y, z, q, i) z += ((x & (y ^ q)) ^ q) + w[i] + 0x5A827999u + ROL(v, 5); \\\n\
+             x = ROL(x, 30);\n\
+         #define R1(v, x, y, z, q, i) z += (x ^ y ^ q) + NEXT(i) + 0x6ED9EBA1u + ROL(v, 5); \\\n\
+             x = ROL(x, 30);\n\
+         static uint32_t vent_log_digest[5];\n\
+         void vent_log_block(uint32_t *w)\n{\n\
+             uint32_t a = vent_log_digest[0], b = vent_log_digest[1], c = vent_log_digest[2];\n\
+             uint32_t d = vent_log_digest[3], e = vent_log_digest[4];\n",
+    );
+    let regs = ["a", "b", "c", "d", "e"];
+    for i in 0..80usize {
+        let m = if i < 16 { "R0" } else { "R1" };
+        let r: Vec<&str> = (0..5).map(|k| regs[(k + 5 - i % 5) % 5]).collect();
+        src.push_str(&format!(
+            "    {m}({}, {}, {}, {}, {}, {i});\n",
+            r[0], r[1], r[2], r[3], r[4]
+        ));
+    }
+    src.push_str(
+        "    vent_log_digest[0] += a; vent_log_digest[1] += b; vent_log_digest[2] += c;\n\
+             vent_log_digest[3] += d; vent_log_digest[4] += e;\n}\n",
+    );
+    src
+}
+
+#[test]
+fn digest_round_macros_are_read_within_bounds() {
+    let dir = tree_with_good_sibling();
+    write(dir.path(), "root/image_check.c", digest_rounds_source());
+    write(dir.path(), "root/log_check.c", schedule_rounds_source());
+    let run = bounded(dir.path(), &["list", "root", "--format", "json"], LIMIT);
+    run.assert_exit(0, "hash rounds are bit arithmetic, read and set aside");
+    let json = run.json();
+    for s in reported(&json) {
+        assert!(
+            !s.function.starts_with("vent_image") && !s.function.starts_with("vent_log"),
+            "a digest round was reported as a smoother: {s:?}"
+        );
+    }
+    assert_sibling_reported(&run);
+}
+
+#[test]
+fn four_thousand_chained_updates_are_cut_with_a_note() {
+    let dir = tree_with_good_sibling();
+    let mut src = String::from("static float pump_level;\nvoid pump_chain(float x)\n{\n");
+    for _ in 0..4000 {
+        src.push_str("    pump_level = pump_level * 0.5f + x;\n");
+    }
+    src.push_str("}\nvoid pump_chain_local(float x)\n{\n    float t = x;\n");
+    for _ in 0..4000 {
+        src.push_str("    t = t * 0.5f + x;\n");
+    }
+    src.push_str("    pump_level = t;\n}\n");
+    write(dir.path(), "root/chain.c", src);
+    let run = bounded(dir.path(), &["list", "root", "--format", "json"], LIMIT);
+    run.assert_exit(0, "a long chain is cut, not followed to the end");
+    // What the cut left unread is said.
+    run.assert_note_on("chain.c");
+    assert_sibling_reported(&run);
+}
+
+#[test]
+fn a_function_with_ten_thousand_locals_is_read() {
+    let dir = tree_with_good_sibling();
+    let mut src =
+        String::from("static int barn_out;\nstatic int barn_level;\nvoid barn_many(int u)\n{\n");
+    for i in 0..10_000 {
+        src.push_str(&format!("    int v{i} = u + {i};\n"));
+    }
+    for i in (0..10_000).step_by(2) {
+        src.push_str(&format!("    if (v{i} > {i}) v{} = v{i} - 1;\n", i + 1));
+    }
+    // A real smoother at the end, after all of them.
+    src.push_str("    barn_out = v9999 + v1;\n    barn_level += (u - barn_level) >> 3;\n}\n");
+    write(dir.path(), "root/many_locals.c", src);
+    let run = bounded(dir.path(), &["list", "root", "--format", "json"], LIMIT);
+    run.assert_exit(0, "ten thousand locals are read in one pass");
+    assert_eq!(
+        count_of(&run.json(), "barn_many", "barn_level"),
+        1,
+        "the smoother after ten thousand locals is not reported\n{}",
+        run.context()
+    );
+    assert_sibling_reported(&run);
+}
+
+#[test]
+fn a_stray_brace_in_a_file_the_grammar_loses_does_not_stop_the_scan() {
+    // The grammar loses this file (a macro used as a statement prefix, an unbalanced
+    // brace at the top); the functions are read again one by one, and nothing panics.
+    let dir = tree_with_good_sibling();
+    write(
+        dir.path(),
+        "root/lost.c",
+        "#if KILN_FEATURE\n#include KILN_HOOKS\nstatic int kiln_fan;\n}\n\
+         void kiln_a(int u)\n{\n  FOR_EACH_ZONE(z) {\n    kiln_fan = z;\n  }\n}\n\
+         static int kiln_y;\nvoid kiln_b(int u)\n{\n  kiln_y += (u - kiln_y) >> 2;\n}\n}}\n#endif\n",
+    );
+    let run = bounded(dir.path(), &["list", "root", "--format", "json"], LIMIT);
+    run.assert_exit(0, "a file the grammar loses is read as far as it goes");
+    assert_eq!(
+        count_of(&run.json(), "kiln_b", "kiln_y"),
+        1,
+        "the function after the lost part is not read again\n{}",
+        run.context()
+    );
+    assert_sibling_reported(&run);
+}
+
 // Constants that C leaves undefined.
 
 /// The smoothers of `hub_*` functions in the JSON, as (function, alpha).

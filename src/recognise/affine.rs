@@ -147,7 +147,7 @@ pub fn carriers(g: &Graph, root: V, state: V, limit: usize) -> Option<HashSet<V>
 /// Reads `value` in affine form in `state`. None when it is not affine in the state, has
 /// no input, or is too large to read.
 pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Option<Affine> {
-    let carries = carriers(g, value, state, 200_000)?;
+    let carries = carriers(g, value, state, 50_000)?;
     if !carries.contains(&value) {
         return None;
     }
@@ -347,7 +347,7 @@ impl Reader<'_> {
             return hit.clone();
         }
         self.work += 1;
-        let out = if depth > MAX_READ_DEPTH || self.work > 2_000_000 {
+        let out = if depth > MAX_READ_DEPTH || self.work > 200_000 {
             self.leaf(v)
         } else {
             self.lin_inner(v, depth)

@@ -28,37 +28,82 @@ use std::collections::BTreeSet;
 /// The candidates of a walk that stand: not continued by a later update of the same state
 /// that reads as an update (a second statement of a split update replaces the first).
 pub fn live_candidates(w: &WalkResult) -> Vec<usize> {
+    live_candidates_noted(w).0
+}
+
+/// The live candidates, and where a chain of updates too long to read was cut (for a note).
+pub fn live_candidates_noted(w: &WalkResult) -> (Vec<usize>, Vec<crate::ir::Span>) {
+    let mut cut = Vec::new();
     let n = w.candidates.len();
     let mut dropped = vec![false; n];
     let read = |i: usize| {
         let c = &w.candidates[i];
         affine::read(&w.graph, c.value, c.state, &|_, _| Shift::NotKnown)
     };
-    for j in (0..n).rev() {
-        if dropped[j] || w.candidates[j].supersedes.is_empty() {
+    // Each candidate continues at most the latest earlier update of its place: chains of
+    // updates, read from their last link backwards until one reads as an update.
+    let mut continued_by = vec![None; n];
+    for (j, c) in w.candidates.iter().enumerate() {
+        for &i in &c.supersedes {
+            continued_by[i] = Some(j);
+        }
+    }
+    let predecessor = |j: usize| w.candidates[j].supersedes.first().copied();
+    let drop_chain = |dropped: &mut Vec<bool>, from: Option<usize>| {
+        let mut cur = from;
+        let mut steps = 0;
+        while let Some(i) = cur {
+            if dropped[i] || steps > n {
+                break;
+            }
+            dropped[i] = true;
+            cur = predecessor(i);
+            steps += 1;
+        }
+    };
+    for tail in (0..n).rev() {
+        if continued_by[tail].is_some() || predecessor(tail).is_none() || dropped[tail] {
             continue;
         }
-        let Some(later) = read(j) else {
-            continue;
-        };
-        let later_sig = signature(w, &later);
-        for &i in &w.candidates[j].supersedes {
-            // A later statement that only clamps, converts or copies what an earlier one
-            // computed (`y += k*(u - y); y = MAX(y, lo);`) adds nothing to the algebra: the
-            // update is the earlier line.
-            let same = read(i).is_some_and(|earlier| signature(w, &earlier) == later_sig);
-            if same {
-                dropped[j] = true;
-            } else {
-                dropped[i] = true;
+        let mut cur = tail;
+        let mut attempts = 0;
+        while let Some(pred) = predecessor(cur) {
+            match read(cur) {
+                Some(later) => {
+                    // A later statement that only clamps, converts or copies what the one
+                    // before computed (`y += k*(u - y); y = MAX(y, lo);`) adds nothing to
+                    // the algebra: the update is the earlier line.
+                    let later_sig = signature(w, &later);
+                    let same = read(pred).is_some_and(|e| signature(w, &e) == later_sig);
+                    if same {
+                        dropped[cur] = true;
+                    } else {
+                        drop_chain(&mut dropped, Some(pred));
+                    }
+                    break;
+                }
+                None => {
+                    // Not an update as a whole: the link before may be one.
+                    dropped[cur] = true;
+                    attempts += 1;
+                    if attempts >= 8 {
+                        // A long chain that never reads as an update (generated code, a
+                        // hash round): the rest of it is not read.
+                        cut.push(w.candidates[tail].span);
+                        drop_chain(&mut dropped, Some(pred));
+                        break;
+                    }
+                    cur = pred;
+                }
             }
         }
     }
-    (0..n)
+    let live = (0..n)
         .filter(|i| {
             !dropped[*i] && w.candidates[*i].instance.is_none() && !w.candidates[*i].overwritten
         })
-        .collect()
+        .collect();
+    (live, cut)
 }
 
 /// The algebra of a reading as text (alpha and each input's weight, by the atoms' C text),

@@ -312,7 +312,16 @@ fn first_pass(
                 message: format!("{}(): {message}", function.name),
             });
         }
-        let live = instances::live_candidates(&w);
+        let (live, cut) = instances::live_candidates_noted(&w);
+        for span in cut {
+            part.notes.push(Note {
+                span,
+                message: format!(
+                    "{}(): a chain of updates of one place too long to read as one was cut here; smoothers in it may be missed",
+                    function.name
+                ),
+            });
+        }
         let mut keep_for_callers = Vec::new();
         for i in live {
             // A filter function's update is listed where it is written (its coefficient

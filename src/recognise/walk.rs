@@ -288,6 +288,7 @@ struct Walker<'a> {
     loop_epochs: Vec<u32>,
     carried_by: HashMap<V, u32>,
     inductions: HashMap<V, Induction>,
+    read_memo: HashMap<(V, V), Option<(u32, V)>>,
 }
 
 /// Walks a function body.
@@ -378,6 +379,7 @@ impl<'a> Walker<'a> {
             loop_epochs: Vec::new(),
             carried_by: HashMap::new(),
             inductions: HashMap::new(),
+            read_memo: HashMap::new(),
         }
     }
 
@@ -1541,35 +1543,57 @@ impl<'a> Walker<'a> {
     /// later version of it, read since the innermost loop's iteration began (a value read
     /// before the loop is another sample of the place, not the one this iteration updates).
     /// The latest such version when there are several.
-    fn state_read(&self, value: V, place: V) -> Option<V> {
+    fn state_read(&mut self, value: V, place: V) -> Option<V> {
         let floor = self
             .loops
             .last()
             .map(|f| self.loop_epochs[f.id as usize])
             .unwrap_or(0);
+        let best = self.latest_read(value, place);
+        best.filter(|(version, _)| *version >= floor)
+            .map(|(_, v)| v)
+    }
+
+    /// The latest value of `place` that `value` reads (its version and node), remembered
+    /// per value: a chain of updates (`t = t*0.5f + x;` four thousand times) is searched
+    /// once, each statement adding only what it adds.
+    fn latest_read(&mut self, value: V, place: V) -> Option<(u32, V)> {
+        if let Some(hit) = self.read_memo.get(&(value, place)) {
+            return *hit;
+        }
         let g = &self.g;
         let mut best: Option<(u32, V)> = None;
         let mut seen = std::collections::HashSet::new();
         let mut stack = vec![value];
+        let better = |best: &mut Option<(u32, V)>, found: (u32, V)| {
+            if best.is_none_or(|(b, _)| found.0 > b) {
+                *best = Some(found);
+            }
+        };
         while let Some(v) = stack.pop() {
             if !seen.insert(v) || seen.len() > REACH_LIMIT {
                 continue;
             }
+            if v != value {
+                if let Some(hit) = self.read_memo.get(&(v, place)) {
+                    if let Some(found) = hit {
+                        better(&mut best, *found);
+                    }
+                    continue;
+                }
+            }
             match g.node(v) {
-                Node::Version { place: p, version } if *p == place && *version >= floor => {
-                    if best.is_none_or(|(b, _)| *version > b) {
-                        best = Some((*version, v));
-                    }
+                Node::Version { place: p, version } if *p == place => {
+                    better(&mut best, (*version, v));
                 }
-                _ if v == place && floor == 0 => {
-                    if best.is_none() {
-                        best = Some((0, v));
-                    }
-                }
+                _ if v == place => better(&mut best, (0, v)),
                 _ => stack.extend(g.children(v)),
             }
         }
-        best.map(|(_, v)| v)
+        if self.read_memo.len() < 1_000_000 {
+            self.read_memo.insert((value, place), best);
+        }
+        best
     }
 
     /// `y[i] = f(y[i - 1])` in a loop: the element the value reads at a constant offset
@@ -1695,7 +1719,8 @@ impl<'a> Walker<'a> {
         });
     }
 
-    /// Whether `from` reads `target` without going through a merge of branches.
+    /// Whether `from` reads `target` without going through a merge of branches, within a
+    /// few hundred nodes (a continuation reads what it continues near the top).
     fn reaches_on_path(&self, from: V, target: V) -> bool {
         let g = &self.g;
         let mut seen = std::collections::HashSet::new();
@@ -1704,7 +1729,7 @@ impl<'a> Walker<'a> {
             if v == target {
                 return true;
             }
-            if !seen.insert(v) || seen.len() > REACH_LIMIT {
+            if !seen.insert(v) || seen.len() > 256 {
                 continue;
             }
             if matches!(g.node(v), Node::Phi { .. }) {
@@ -1719,7 +1744,16 @@ impl<'a> Walker<'a> {
         if self.quiet > 0 {
             return;
         }
+        // The latest earlier update of the same place is the one a continuation continues
+        // (the ones before it are continued by it in turn).
+        let latest = self
+            .candidates
+            .iter()
+            .rposition(|old| old.place == c.place && old.instance.is_none());
         for (i, old) in self.candidates.iter().enumerate() {
+            if Some(i) != latest {
+                continue;
+            }
             // A continuation reads the same state as the earlier update and reads the
             // earlier update's value on the way (not merely through an input).
             // It reads it on the same path: not through a merge of branches (an update made
