@@ -127,8 +127,8 @@ pub struct Program {
     defined: HashMap<String, bool>,
     /// What each macro name is known to be (defined, undefined, or either).
     defined_tri: HashMap<String, Tri>,
-    /// The files each file's `#include`s name, resolved to files of the scan.
-    includes: Vec<Vec<usize>>,
+    /// For each file, each `#include`'s possible files of the scan.
+    includes: Vec<Vec<Vec<usize>>>,
     /// Each file's include closure (itself and what it includes, transitively), on first use.
     closures: Vec<std::sync::OnceLock<Vec<usize>>>,
     /// Every macro body parsed as statements or an expression, on first use.
@@ -894,9 +894,11 @@ impl Program {
         self.branch_tri_by(branch, &mut |n| self.defined_tri_of(n))
     }
 
-    /// Resolves each file's `#include` paths to files of the scan: the file of that path
-    /// relative to the including file's folder first, else the one whose path ends with
-    /// it (the shortest such path).
+    /// Finds, for each `#include` of each file, the files of the scan it can name: the file
+    /// of that path relative to the including file's folder, else those whose path ends
+    /// with it. Which of several is meant depends on the file being compiled (each board's
+    /// `hal.h` is included by the shared headers of every board): `include_closure`
+    /// chooses, from the file at the root.
     fn resolve_includes(&mut self) {
         let mut by_name: HashMap<&str, Vec<usize>> = HashMap::new();
         for (i, p) in self.paths.iter().enumerate() {
@@ -910,7 +912,7 @@ impl Program {
                 .get(fi)
                 .and_then(|p| p.rsplit_once('/').map(|(d, _)| d.to_string()))
                 .unwrap_or_default();
-            let mut out = Vec::new();
+            let mut out: Vec<Vec<usize>> = Vec::new();
             for inc in &file.includes {
                 if !self.condition_possible_simple(&inc.condition) {
                     continue;
@@ -925,22 +927,25 @@ impl Program {
                 } else {
                     format!("{dir}/{wanted}")
                 };
-                let pick = cands
+                let relative: Vec<usize> = cands
                     .iter()
-                    .find(|&&c| self.paths[c] == joined)
-                    .or_else(|| {
-                        cands
-                            .iter()
-                            .filter(|&&c| {
-                                let p = &self.paths[c];
-                                p == wanted || p.ends_with(&format!("/{wanted}"))
-                            })
-                            .min_by_key(|&&c| self.paths[c].len())
-                    });
-                if let Some(&c) = pick {
-                    if c != fi && !out.contains(&c) {
-                        out.push(c);
-                    }
+                    .copied()
+                    .filter(|&c| self.paths[c] == joined && c != fi)
+                    .collect();
+                let choices = if relative.is_empty() {
+                    cands
+                        .iter()
+                        .copied()
+                        .filter(|&c| {
+                            let p = &self.paths[c];
+                            c != fi && (p == wanted || p.ends_with(&format!("/{wanted}")))
+                        })
+                        .collect()
+                } else {
+                    relative
+                };
+                if !choices.is_empty() {
+                    out.push(choices);
                 }
             }
             includes.push(out);
@@ -963,10 +968,25 @@ impl Program {
             return &[];
         };
         cell.get_or_init(|| {
+            // Of several files an include can name, the one nearest the file compiled: the
+            // longest common folder with it, then the shortest path.
+            let root = self.paths.get(file).map(String::as_str).unwrap_or("");
+            let shared = |p: &str| {
+                root.split('/')
+                    .zip(p.split('/'))
+                    .take_while(|(a, b)| a == b)
+                    .count()
+            };
             let mut seen = vec![file];
             let mut queue = std::collections::VecDeque::from([file]);
             while let Some(f) = queue.pop_front() {
-                for &next in self.includes.get(f).map(Vec::as_slice).unwrap_or(&[]) {
+                for choices in self.includes.get(f).map(Vec::as_slice).unwrap_or(&[]) {
+                    let Some(&next) = choices.iter().max_by_key(|&&c| {
+                        let p = &self.paths[c];
+                        (shared(p), std::cmp::Reverse(p.len()), std::cmp::Reverse(c))
+                    }) else {
+                        continue;
+                    };
                     if !seen.contains(&next) {
                         seen.push(next);
                         queue.push_back(next);
@@ -1683,5 +1703,33 @@ mod tests {
         let p = program(src, &[]);
         assert_eq!(p.writes_to("g.k").count(), 1);
         assert_eq!(p.calls_to("go").count(), 1);
+    }
+
+    #[test]
+    fn a_shared_header_includes_the_board_header_nearest_the_file_compiled() {
+        // Two boards of a kiln controller each have their own `board.h`; the shared
+        // `kiln.h` includes "board.h", which means the one beside the file being compiled.
+        let files = [
+            ("boards/k1/main.c", "#include \"kiln.h\"\n"),
+            ("boards/k2/main.c", "#include \"kiln.h\"\n"),
+            ("common/kiln.h", "#include \"board.h\"\n"),
+            ("boards/k1/board.h", "#define KILN_WEIGHT 0.25f\n"),
+            ("boards/k2/board.h", "#define KILN_WEIGHT 0.5f\n"),
+        ];
+        let irs = files
+            .iter()
+            .enumerate()
+            .map(|(i, (_, s))| parse_file(FileId(i as u32), s.as_bytes()))
+            .collect();
+        let paths = files.iter().map(|(p, _)| p.to_string()).collect();
+        let p = Program::build(irs, paths, ProgramOptions::default());
+        let k1 = p
+            .macro_for("KILN_WEIGHT", Some(0))
+            .map(|(_, m)| m.body.clone());
+        let k2 = p
+            .macro_for("KILN_WEIGHT", Some(1))
+            .map(|(_, m)| m.body.clone());
+        assert_eq!(k1.as_deref(), Some("0.25f"));
+        assert_eq!(k2.as_deref(), Some("0.5f"));
     }
 }
