@@ -1,7 +1,7 @@
 //! Confirms by execution what tauscan reports about the smoothers in `fixtures/forms`.
 //!
-//! Every `tests/exec/<case>.drive.c` includes `fixtures/forms/<case>.c` and lists its
-//! smoothers as reset/step pairs. This test compiles each driver with the system C compiler
+//! Every `tests/exec/<case>.drive.c` includes `fixtures/forms/<case>.c` (or the files of
+//! the folder `fixtures/forms/<case>/`) and lists its smoothers as reset/step pairs. This test compiles each driver with the system C compiler
 //! together with `tests/exec/drive_main.c`, runs it, and holds what the C really does (the
 //! first step of the step response, where a step comes to rest, the dead band on either
 //! side) against the record tauscan gives for the same file, function and state. It also
@@ -190,10 +190,17 @@ fn parse_driver_line(file: &str, line: &str) -> Executed {
     };
     // After the eight fixed fields come key=value fields of the optional kinds of case.
     let mut extra = std::collections::BTreeMap::new();
+    let mut file = file.to_string();
     for field in &fields[8..] {
         let (key, value) = field
             .split_once('=')
             .unwrap_or_else(|| panic!("{file}: field {field:?} of {line:?} is not key=value"));
+        if key == "file" {
+            // A fixture folder: the update's file in it.
+            let folder = file.trim_end_matches(".c");
+            file = format!("{folder}/{value}");
+            continue;
+        }
         let value: f64 = value
             .parse()
             .unwrap_or_else(|e| panic!("{file}: field {field:?} of {line:?}: {e}"));
@@ -223,7 +230,7 @@ fn parse_driver_line(file: &str, line: &str) -> Executed {
         }
     });
     Executed {
-        file: file.to_string(),
+        file,
         function: fields[0].to_string(),
         state: fields[1].to_string(),
         integer,
@@ -487,9 +494,15 @@ fn compare(case: &Executed, record: &Value) -> Vec<String> {
 #[test]
 fn every_forms_fixture_has_a_driver_and_every_driver_a_fixture() {
     let root = crate_root();
-    let fixtures: BTreeSet<String> = cases_in(&root.join("fixtures").join("forms"), ".c")
-        .into_iter()
-        .collect();
+    let forms = root.join("fixtures").join("forms");
+    let mut fixtures: BTreeSet<String> = cases_in(&forms, ".c").into_iter().collect();
+    // A case of several files is a folder of them.
+    for entry in std::fs::read_dir(&forms).unwrap() {
+        let entry = entry.unwrap();
+        if entry.file_type().unwrap().is_dir() {
+            fixtures.insert(entry.file_name().to_string_lossy().into_owned());
+        }
+    }
     let drivers: BTreeSet<String> = cases_in(&root.join("tests").join("exec"), ".drive.c")
         .into_iter()
         .collect();

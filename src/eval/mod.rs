@@ -612,7 +612,7 @@ impl<'p> Evaluator<'p> {
                 }
             }
         }
-        match file {
+        let writes: Vec<crate::index::Write> = match file {
             Some(f) => self
                 .program
                 .writes_seen_from(text, f)
@@ -620,7 +620,57 @@ impl<'p> Evaluator<'p> {
                 .cloned()
                 .collect(),
             None => self.program.writes_to(text).cloned().collect(),
+        };
+        match self.origin {
+            Some(origin) if (2..=64).contains(&writes.len()) => {
+                let after_init: Vec<_> = writes
+                    .iter()
+                    .filter(|w| self.after_init_of(w, origin))
+                    .cloned()
+                    .collect();
+                if after_init.is_empty() {
+                    writes
+                } else {
+                    after_init
+                }
+            }
+            _ => writes,
         }
+    }
+
+    /// Whether a write to an object's field follows, in the same function, a call that hands
+    /// the object to a function of `origin` (`module_init(..., d); d->gain = d->base * 0.2f;`)
+    /// with no other call handing it on in between: the object is then one of `origin`'s,
+    /// and of several writes to the field the ones after its init calls are its
+    /// configuration.
+    fn after_init_of(&self, w: &crate::index::Write, origin: usize) -> bool {
+        let root: String = w
+            .target
+            .chars()
+            .take_while(|c| c.is_ascii_alphanumeric() || *c == '_')
+            .collect();
+        if root.is_empty() || w.function.file == origin {
+            return false;
+        }
+        let hands_object = |a: &Expr| {
+            let t = a.to_string();
+            t == root || t.strip_prefix('&') == Some(root.as_str())
+        };
+        let latest = self
+            .program
+            .calls()
+            .iter()
+            .filter(|c| {
+                c.caller == w.function
+                    && c.span.start < w.span.start
+                    && c.args.iter().any(hands_object)
+            })
+            .max_by_key(|c| c.span.start);
+        latest.is_some_and(|c| {
+            self.program
+                .resolve_call(c.caller, &c.callee)
+                .is_some_and(|f| f.file == origin)
+        })
     }
 
     /// The calls that pass the address of `base` (`init(&base, ...)`), with the argument's

@@ -266,7 +266,9 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
             let leaves_only = signal.atoms().iter().all(|a| {
                 matches!(
                     atoms.get(*a as usize),
-                    Some(AtomKind::Leaf(_)) | Some(AtomKind::Product(_))
+                    Some(AtomKind::Leaf(_))
+                        | Some(AtomKind::Product(_))
+                        | Some(AtomKind::Inverse(..))
                 )
             });
             if unit && leaves_only && atoms.len() < MAX_ATOMS {
@@ -632,9 +634,13 @@ fn product_inputs(
     for (m, c) in monomials {
         let (weight_atoms, signal): (Vec<AtomId>, Vec<AtomId>) =
             m.iter().partition(|a| in_alpha.contains(a));
-        let leaves_only = signal
-            .iter()
-            .all(|a| matches!(atoms.get(*a as usize), Some(AtomKind::Leaf(_))));
+        // Signals and quotients of signals (`ang / (period + 0.1f)`).
+        let leaves_only = signal.iter().all(|a| {
+            matches!(
+                atoms.get(*a as usize),
+                Some(AtomKind::Leaf(_)) | Some(AtomKind::Inverse(..))
+            )
+        });
         if signal.is_empty() || !leaves_only {
             return None;
         }

@@ -71,25 +71,42 @@ impl Reading<'_> {
     }
 }
 
+/// A product of atoms as C text: the factors multiplied, then divided by the inverse ones
+/// (`ang / (period + 0.1f)`).
+fn factors_text(g: &Graph, atoms: &[AtomKind], factors: &[AtomId]) -> String {
+    let (over, times): (Vec<AtomId>, Vec<AtomId>) = factors
+        .iter()
+        .partition(|f| matches!(atoms.get(**f as usize), Some(AtomKind::Inverse(..))));
+    let mut text = times
+        .iter()
+        .map(|f| atom_text(g, atoms, *f))
+        .collect::<Vec<_>>()
+        .join(" * ");
+    if text.is_empty() {
+        text.push('1');
+    }
+    for f in over {
+        if let Some(AtomKind::Inverse(v, _)) = atoms.get(f as usize) {
+            text.push_str(&format!(" / ({})", g.display(*v, 120)));
+        }
+    }
+    text
+}
+
 pub fn atom_text(g: &Graph, atoms: &[AtomKind], a: AtomId) -> String {
     let Some(atom) = atoms.get(a as usize) else {
         return "?".into();
     };
     match atom {
-        AtomKind::Product(factors) => factors
-            .iter()
-            .map(|f| atom_text(g, atoms, *f))
-            .collect::<Vec<_>>()
-            .join(" * "),
+        AtomKind::Product(factors) => factors_text(g, atoms, factors),
         AtomKind::Composite { node: Some(v), .. } => g.display(*v, 160),
         AtomKind::Composite { signal, .. } => {
             let mut parts = Vec::new();
             for (m, c) in &signal.terms {
-                let names: Vec<String> = m.iter().map(|x| atom_text(g, atoms, *x)).collect();
                 parts.push(format!(
                     "{}{}",
                     if *c < 0.0 { "- " } else { "+ " },
-                    names.join(" * ")
+                    factors_text(g, atoms, m)
                 ));
             }
             parts.join(" ").trim_start_matches("+ ").to_string()

@@ -1,7 +1,8 @@
 /*
  * The execution driver's contract with the per-fixture drivers.
  *
- * Each tests/exec/<case>.drive.c includes fixtures/forms/<case>.c, wraps every smoother of
+ * Each tests/exec/<case>.drive.c includes fixtures/forms/<case>.c (or the .c files of the
+ * folder fixtures/forms/<case>/, for a case made of several files), wraps every smoother of
  * that fixture in a reset/step pair working in the smoother's output units, and lists them
  * in DRIVE_CASES, ended by an all-zero entry. drive_main.c runs every case and prints what
  * the C actually does; tests/exec_truth.rs holds that against what tauscan reports. This
@@ -52,6 +53,9 @@ struct drive_case {
     /* The update rate in Hz as the fixture's own constants give it (1.0 / DT_S), when they
      * state one; 0 when they do not. */
     double rate_hz;
+    /* For a fixture that is a folder of files (fixtures/forms/<case>/): the file of the
+     * update, relative to that folder ("tone.c"); NULL for a one-file fixture. */
+    const char *file;
 };
 
 /* Defined by each <case>.drive.c, ended by an entry whose function is NULL. */

@@ -24,6 +24,7 @@
  *   alpha_alt=a              a gain that follows the time step: the first step run with
  *                            the other time step
  *   rate_hz=r                the update rate the fixture's own constants give
+ *   file=name                for a fixture folder: the file of the update in it
  *
  * Matching these figures with tauscan's is left to tests/exec_truth.rs.
  */
@@ -184,6 +185,9 @@ static int measure(const struct drive_case *c)
     }
     if (c->rate_hz > 0.0) {
         printf("\trate_hz=%.17g", c->rate_hz);
+    }
+    if (c->file != NULL) {
+        printf("\tfile=%s", c->file);
     }
     printf("\n");
     return failed;
