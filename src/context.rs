@@ -123,6 +123,16 @@ pub fn is_time_step_name(name: &str) -> bool {
     time_step_scale(name).is_some()
 }
 
+/// For a time-step name (`dt_us`, `loopPeriodMs`), the factor from its unit to seconds.
+pub fn time_step_unit(name: &str) -> Option<f64> {
+    time_step_scale(name)
+}
+
+/// For a rate name (`samp_rate`, `fs_khz`), the factor from its unit to Hz.
+pub fn rate_unit(name: &str) -> Option<f64> {
+    rate_scale(name)
+}
+
 /// For a time-step name, the factor from its unit to seconds.
 fn time_step_scale(name: &str) -> Option<f64> {
     let w = words(name);
@@ -134,7 +144,15 @@ fn time_step_scale(name: &str) -> Option<f64> {
     let step = w.iter().any(|x| {
         matches!(
             x.as_str(),
-            "dt" | "ts" | "period" | "interval" | "tick" | "tsample" | "step" | "delta"
+            "dt" | "ts"
+                | "period"
+                | "interval"
+                | "tick"
+                | "tsample"
+                | "step"
+                | "delta"
+                | "looptime"
+                | "delt"
         )
     }) || (w.iter().any(|x| x == "sample") && w.iter().any(|x| x == "time"));
     if !step {

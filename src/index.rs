@@ -567,6 +567,11 @@ impl Program {
             .map(|&i| &self.calls[i])
     }
 
+    /// Every write to a place of the program, in file order.
+    pub fn all_writes(&self) -> impl Iterator<Item = &Write> {
+        self.writes.iter()
+    }
+
     pub fn calls(&self) -> &[CallSite] {
         &self.calls
     }

@@ -48,6 +48,8 @@ struct Executed {
     alpha_alt: Option<f64>,
     /// The update rate the fixture's own constants give, when they give one.
     rate_hz: Option<f64>,
+    /// For a gain a design law computes: the period in seconds the driver configured.
+    design_dt_s: Option<f64>,
 }
 
 /// What a whole cascade did when it ran, as printed by `drive_main.c`.
@@ -242,6 +244,7 @@ fn parse_driver_line(file: &str, line: &str) -> Executed {
         chain,
         alpha_alt: extra.get("alpha_alt").copied(),
         rate_hz: extra.get("rate_hz").copied(),
+        design_dt_s: extra.get("design_dt_s").copied(),
     }
 }
 
@@ -373,6 +376,56 @@ fn compare_adaptive(case: &Executed, record: &Value, alpha_alt: f64, problems: &
     }
 }
 
+/// A gain computed by a design law from a period and a configuration the code reads at run
+/// time: no constant alpha, and a design whose law and figures give the executed gain at
+/// the configuration's defaults.
+fn compare_design(case: &Executed, record: &Value, dt: f64, problems: &mut Vec<String>) {
+    let label = case.label();
+    let design = &record["design"];
+    if !record["alpha"].is_null() {
+        problems.push(format!(
+            "{label}: alpha reported {}, but the gain follows a configuration read at run time",
+            record["alpha"]
+        ));
+    }
+    // Source: DOMAIN.md section 1, the first-order designs, each linear in the period in
+    // its own coordinate: rc x / (1 + x), exponential 1 - exp(-x), forward Euler x, with
+    // x = 2 pi fc dt.
+    let a = case.alpha;
+    let coordinate = match design["law"].as_str() {
+        Some("rc") => a / (1.0 - a),
+        Some("exponential") => -(1.0 - a).ln(),
+        Some("euler") => a,
+        other => {
+            problems.push(format!("{label}: design law {other:?}, design {design}"));
+            return;
+        }
+    };
+    // Source: execution of the fixture with the system C compiler (cc): the first step at
+    // the defaults, over the period the driver configured.
+    let executed_cutoff = coordinate / (2.0 * std::f64::consts::PI * dt);
+    match design["cutoff_hz"].as_f64() {
+        Some(c) if ((c - executed_cutoff) / executed_cutoff).abs() <= 1e-4 => {}
+        _ => problems.push(format!(
+            "{label}: design cutoff_hz reported {}, the executed gain gives {executed_cutoff}              under the {} law",
+            design["cutoff_hz"], design["law"]
+        )),
+    }
+    match design["alpha_at_defaults"].as_f64() {
+        Some(d) if ((d - a) / a).abs() <= 1e-5 => {}
+        _ => problems.push(format!(
+            "{label}: design alpha_at_defaults reported {}, executed {a}",
+            design["alpha_at_defaults"]
+        )),
+    }
+    if record["rate_kind"].as_str() != Some("adaptive") {
+        problems.push(format!(
+            "{label}: rate_kind reported {}, expected \"adaptive\" (the gain follows the period)",
+            record["rate_kind"]
+        ));
+    }
+}
+
 /// The rate of the fixture's own constants against the reported one, and the exact cutoff
 /// at that rate from the executed alpha against the reported cutoff.
 fn compare_rate(case: &Executed, record: &Value, rate: f64, problems: &mut Vec<String>) {
@@ -430,6 +483,8 @@ fn compare(case: &Executed, record: &Value) -> Vec<String> {
         compare_window(case, record, window, &mut problems);
     } else if let Some(alpha_alt) = case.alpha_alt {
         compare_adaptive(case, record, alpha_alt, &mut problems);
+    } else if let Some(dt) = case.design_dt_s {
+        compare_design(case, record, dt, &mut problems);
     } else {
         compare_alpha(case, record, &mut problems);
     }

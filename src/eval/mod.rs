@@ -37,6 +37,8 @@ pub struct Unknown {
     /// The run-time quantity (a parameter, a variable set while running) the value depends
     /// on, when that is the reason.
     pub runtime: Option<String>,
+    /// When that quantity is a parameter: the function it is a parameter of.
+    pub param_of: Option<FuncRef>,
 }
 
 impl Unknown {
@@ -44,12 +46,14 @@ impl Unknown {
         Unknown {
             reason: reason.into(),
             runtime: None,
+            param_of: None,
         }
     }
     fn runtime(name: &str, reason: impl Into<String>) -> Unknown {
         Unknown {
             reason: reason.into(),
             runtime: Some(name.to_string()),
+            param_of: None,
         }
     }
 }
@@ -102,6 +106,9 @@ pub struct Evaluator<'p> {
     pub shared_fields: bool,
     pub chain: Vec<ChainStep>,
     pub flags: Flags,
+    /// Values to assume for run-time quantities (by their C text, as `Unknown::runtime`
+    /// names them), to probe how a value computed at run time depends on them.
+    pub assumed: HashMap<String, Num>,
     /// The file whose includes decide which definition of a macro is meant: the file of
     /// the innermost scope with a function.
     file: Option<usize>,
@@ -131,6 +138,7 @@ impl<'p> Evaluator<'p> {
             shared_fields: true,
             chain: Vec::new(),
             flags: Flags::default(),
+            assumed: HashMap::new(),
             file: None,
             origin: None,
             depth: 0,
@@ -208,6 +216,22 @@ impl<'p> Evaluator<'p> {
                         ..
                     }
             ) {
+                return Ok(*v);
+            }
+        }
+        if !self.assumed.is_empty()
+            && matches!(
+                expr.kind,
+                ExprKind::Ident(_)
+                    | ExprKind::Field { .. }
+                    | ExprKind::Index { .. }
+                    | ExprKind::Unary {
+                        op: UnaryOp::Deref,
+                        ..
+                    }
+            )
+        {
+            if let Some(v) = self.assumed.get(&expr.to_string()) {
                 return Ok(*v);
             }
         }
@@ -354,16 +378,27 @@ impl<'p> Evaluator<'p> {
                 if let Some(step) = step {
                     ev.fill(step, &v);
                 }
-                v
+                // A local computed from what a call returns at run time is itself a
+                // run-time quantity, better named by the local (`dt_ms = now() - last`).
+                v.map_err(|u| match &u.runtime {
+                    Some(r) if r.ends_with(')') => Unknown {
+                        reason: u.reason.clone(),
+                        runtime: Some(name.to_string()),
+                        param_of: None,
+                    },
+                    _ => u,
+                })
             });
         }
         if let Some(f) = scope.function {
             let function = self.program.function(f);
             if function.params.iter().any(|p| p.name == name) {
-                return Err(Unknown::runtime(
+                let mut u = Unknown::runtime(
                     name,
                     format!("`{name}` is a parameter of {}()", function.name),
-                ));
+                );
+                u.param_of = Some(f);
+                return Err(u);
             }
             if let Some(local) = find_local(function, name) {
                 let fname = function.name.clone();
@@ -754,6 +789,18 @@ impl<'p> Evaluator<'p> {
             let calls = self.init_calls(base, scope);
             for (call, position) in calls {
                 let Some(callee) = self.program.resolve_call(call.caller, &call.callee) else {
+                    // A function outside the scan that is handed the object may write it
+                    // (a configuration read from flash); clearing it first does not count.
+                    if !is_clearing_function(&call.callee) {
+                        self.record(call.span.file, call.span.line, call.to_string_call());
+                        unknown = Some(Unknown::runtime(
+                            text,
+                            format!(
+                                "`{base_text}` is handed to {}(), which is not in the scanned files",
+                                call.callee
+                            ),
+                        ));
+                    }
                     continue;
                 };
                 let function = self.program.function(callee).clone();
@@ -774,6 +821,7 @@ impl<'p> Evaluator<'p> {
                 }
                 // Bind the callee's parameters to the call's arguments.
                 let mut scope = Scope::in_function(callee);
+                let mut failed_args: HashMap<String, Unknown> = HashMap::new();
                 let caller_scope = Scope::in_function(call.caller);
                 self.record(call.span.file, call.span.line, call.to_string_call());
                 for (p, a) in function.params.iter().zip(&call.args) {
@@ -791,8 +839,13 @@ impl<'p> Evaluator<'p> {
                         .eval(a, &caller_scope)
                         .map(|v| v.convert(&pty, self.target()));
                     self.fill(step, &v);
-                    if let Ok(v) = v {
-                        scope.values.insert(p.name.clone(), v);
+                    match v {
+                        Ok(v) => {
+                            scope.values.insert(p.name.clone(), v);
+                        }
+                        Err(u) => {
+                            failed_args.insert(p.name.clone(), u);
+                        }
                     }
                 }
                 for w in writes {
@@ -809,7 +862,15 @@ impl<'p> Evaluator<'p> {
                     );
                     match self.eval(&w.value, &scope) {
                         Ok(v) => push_unique(&mut values, v.convert(&ty, self.target())),
-                        Err(u) => unknown = Some(u),
+                        // A parameter whose argument is not known: what the argument
+                        // depends on, not the parameter's name.
+                        Err(u) => {
+                            let from_arg = match (&u.runtime, u.param_of) {
+                                (Some(p), Some(f)) if f == callee => failed_args.get(p).cloned(),
+                                _ => None,
+                            };
+                            unknown = Some(from_arg.unwrap_or(u));
+                        }
                     }
                 }
             }
@@ -923,9 +984,11 @@ impl<'p> Evaluator<'p> {
             None => self.program.function_by_name(name),
         };
         let Some(f) = resolved else {
-            return Err(Unknown::new(format!(
-                "{name}() is not defined in the scanned files"
-            )));
+            // What a function outside the scan returns is a value of the run.
+            return Err(Unknown::runtime(
+                &format!("{name}()"),
+                format!("{name}() is not defined in the scanned files"),
+            ));
         };
         let function = self.program.function(f).clone();
         self.guarded(format!("function {name}"), |ev| {
@@ -1150,6 +1213,12 @@ pub fn substitute_macro(body: &str, params: &[String], args: &[Expr]) -> String 
 
 /// A signed operation whose result does not fit its type has no value in C (C11 6.5p5),
 /// so a constant computed that way is not known, whatever a wrap would give.
+/// A library function that only clears or fills memory it is handed with a constant
+/// (`memset(&cfg, 0, sizeof cfg)` before the fields are set).
+fn is_clearing_function(name: &str) -> bool {
+    matches!(name, "memset" | "bzero" | "explicit_bzero" | "memset_s")
+}
+
 fn overflowed(expr: &Expr) -> Unknown {
     Unknown::new(format!(
         "`{expr}` overflows its signed type (undefined, C11 6.5p5)"

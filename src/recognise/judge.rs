@@ -309,6 +309,43 @@ fn evaluate_atoms(
     (values, unknown)
 }
 
+/// Alpha and the sum of the input weights from the values of the atoms.
+pub fn alpha_of(aff: &Affine, values: &[f64]) -> (Option<f64>, Option<f64>) {
+    let a = aff.alpha.evaluate(&|x| values[x as usize]);
+    let w: f64 = aff
+        .inputs
+        .iter()
+        .map(|(_, w)| w.evaluate(&|x| values[x as usize]))
+        .sum();
+    let input_weight = w.is_finite().then_some(w);
+    // When the weights sum to alpha identically, both sides are alpha; the input's weight
+    // is the better-conditioned one (`1 - 0.9999f` loses four digits to cancellation,
+    // `0.0001f` none).
+    let alpha = match (aff.structural, input_weight) {
+        (true, Some(w)) => Some(w),
+        _ => a.is_finite().then_some(a),
+    };
+    (alpha, input_weight)
+}
+
+/// The values of the atoms with run-time quantities assumed (`assumed`, by their C text),
+/// and the evaluator's derivation; for probing a coefficient computed at run time.
+pub fn probe_atoms(
+    reading: &Reading,
+    assumed: &HashMap<String, Num>,
+) -> (Vec<f64>, Vec<eval::Unknown>, Vec<eval::ChainStep>) {
+    let mut ev = new_evaluator(reading.program, reading.walk);
+    ev.assumed = assumed.clone();
+    let (values, unknown) = evaluate_atoms(
+        reading.program,
+        reading.walk,
+        reading.candidate,
+        &reading.affine,
+        &mut ev,
+    );
+    (values, unknown, ev.chain)
+}
+
 /// Judges candidate `i` of a walk.
 pub fn judge(
     program: &Program,
@@ -358,24 +395,9 @@ pub fn judge_explained(
         .iter()
         .all(|a| reading.values[*a as usize].is_finite());
     if reading.known {
-        let values = &reading.values;
-        let a = reading.affine.alpha.evaluate(&|x| values[x as usize]);
-        reading.alpha = a.is_finite().then_some(a);
-        let w: f64 = reading
-            .affine
-            .inputs
-            .iter()
-            .map(|(_, w)| w.evaluate(&|x| values[x as usize]))
-            .sum();
-        reading.input_weight = w.is_finite().then_some(w);
-        // When the weights sum to alpha identically, both sides are alpha; the input's
-        // weight is the better-conditioned one (`1 - 0.9999f` loses four digits to
-        // cancellation, `0.0001f` none).
-        if reading.affine.structural {
-            if let Some(w) = reading.input_weight {
-                reading.alpha = Some(w);
-            }
-        }
+        let (alpha, input_weight) = alpha_of(&reading.affine, &reading.values);
+        reading.alpha = alpha;
+        reading.input_weight = input_weight;
     }
     if storage == Storage::LoopLocal && !input_changes_per_iteration(&reading) {
         return Err("a loop iteration on a value that does not change between iterations");
@@ -594,10 +616,23 @@ fn build(
     let walk = reading.walk;
     let c = reading.candidate;
     let g = &walk.graph;
-    let coefficient = match verdict.form {
+    let mut coefficient = match verdict.form {
         Form::MovingAverage => Coefficient::Known(1.0 / f64::from(verdict.window.unwrap_or(1))),
         _ => coefficient(&reading),
     };
+    let design = match (&coefficient, verdict.form) {
+        (Coefficient::Known(_), _) | (_, Form::MovingAverage) => None,
+        _ => super::design::analyse(&reading),
+    };
+    // A coefficient designed over a period follows that period.
+    if let (Some(d), Coefficient::Unknown { formula, .. }) = (&design, &coefficient) {
+        if let Some((p, _)) = d.period {
+            coefficient = Coefficient::Adaptive {
+                formula: formula.clone(),
+                depends_on: d.quantities[p].text.clone(),
+            };
+        }
+    }
     let arithmetic = arithmetic_of(g, &reading.state_type, c.value);
     let inputs: Vec<V> = reading
         .affine
@@ -681,6 +716,7 @@ fn build(
         upstream: None,
         through_branch: reading.affine.through_branch,
         instance_count: 0,
+        design,
     }
 }
 
@@ -746,6 +782,7 @@ fn build_plain(
         upstream: None,
         through_branch: false,
         instance_count: 0,
+        design: None,
     }
 }
 

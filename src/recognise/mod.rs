@@ -22,6 +22,7 @@
 //! cuts is noted with the file and line, and the scan goes on.
 
 pub mod affine;
+pub mod design;
 pub mod forms;
 pub mod instances;
 pub mod judge;
@@ -184,6 +185,9 @@ pub struct Smoother {
     /// For the update inside a filter function: how many call sites are listed as its
     /// instances (their coefficients are the ones that run).
     pub instance_count: usize,
+    /// For a coefficient computed at run time: the design law it follows and what that
+    /// law fixes (a cutoff, a time constant), when one is found.
+    pub design: Option<design::Design>,
 }
 
 /// Something recognition wants a reader to know: a form it saw but could not resolve, a

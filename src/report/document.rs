@@ -369,7 +369,7 @@ fn coefficient_text(s: &crate::recognise::Smoother) -> String {
             None => "N unknown".into(),
         };
     }
-    match &s.alpha {
+    let text = match &s.alpha {
         Coefficient::Known(a) if *a > 0.0 => {
             format!("alpha = {} (tau {})", sig3(*a), samples(1.0 / a))
         }
@@ -379,6 +379,10 @@ fn coefficient_text(s: &crate::recognise::Smoother) -> String {
             depends_on,
         } => format!("adaptive: {formula} (follows {depends_on})"),
         Coefficient::Unknown { formula, reason } => format!("unknown: {formula} ({reason})"),
+    };
+    match &s.design {
+        Some(d) => format!("{text}; design: {}", d.describe()),
+        None => text,
     }
 }
 

@@ -35,7 +35,20 @@
 //!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25 } ],
 //!     "update": "y = y + (u - y) >> 3", "inputs": ["u"],
 //!     "cascade": { "stages": [id, …], "cutoff_hz": …, "cutoff_per_sample": …,
-//!                  "lag_samples": …, "lag_s": …, "settle": {…}, "noise_ratio": … } | null
+//!                  "lag_samples": …, "lag_s": …, "settle": {…}, "noise_ratio": … } | null,
+//!     "design": {                                 // a coefficient computed at run time
+//!       "law": "rc" | "exponential" | "euler" | "span",
+//!       "text": "cutoff = `cfg->cutoff_hz` Hz at the period `dt` (rc law)",
+//!       "figure": "cutoff" | "cutoff-of" | "time-constant-of" | "window-of" | "several",
+//!       "figure_of": "cfg->cutoff_hz" | null, "figure_scale": 1.0 | null,
+//!       "period": "dt" | null, "period_unit_s": 1.0 | null, "period_is_rate": false,
+//!       "cutoff_hz": 2.0 | null,                  // constant, or at the defaults
+//!       "quantities": [ { "text": "cutoff", "reason": "…", "file": …, "line": …,
+//!                         "default": 20.0 | null, "default_file": …, "default_line": …,
+//!                         "argument": "cfg->cutoff_hz" | null,  // a parameter's callers
+//!                         "argument_file": …, "argument_line": … } ],
+//!       "alpha_at_defaults": 0.11 | null
+//!     } | null
 //!   } ],
 //!   "findings": [ {                               // `tauscan check` only; [] for list
 //!     "rule": "cutoff-outside-requirement", "severity": "error" | "warning" | "note",
@@ -121,6 +134,83 @@ struct CascadeRecord {
 }
 
 #[derive(Serialize)]
+struct QuantityRecord {
+    text: String,
+    reason: String,
+    /// Where the derivation met it (an init call's argument, a write).
+    file: Option<String>,
+    line: Option<u32>,
+    /// A constant the code gives it elsewhere (a reset function, a defaults write).
+    default: Option<f64>,
+    default_file: Option<String>,
+    default_line: Option<u32>,
+    /// For a parameter: what every call of its function passes, at the first call.
+    argument: Option<String>,
+    argument_file: Option<String>,
+    argument_line: Option<u32>,
+}
+
+#[derive(Serialize)]
+struct DesignRecord {
+    law: &'static str,
+    text: String,
+    figure: &'static str,
+    /// The quantity the figure is a multiple of (cutoff in Hz, time constant in s, window).
+    figure_of: Option<String>,
+    figure_scale: Option<f64>,
+    period: Option<String>,
+    period_unit_s: Option<f64>,
+    period_is_rate: bool,
+    /// The design's cutoff: a constant of the code, or at the quantities' defaults.
+    cutoff_hz: Option<f64>,
+    quantities: Vec<QuantityRecord>,
+    alpha_at_defaults: Option<f64>,
+}
+
+fn design_record(program: &Program, d: &crate::recognise::design::Design) -> DesignRecord {
+    use crate::recognise::design::Figure;
+    let (figure, of, scale) = match &d.figure {
+        Figure::Cutoff { .. } => ("cutoff", None, None),
+        Figure::CutoffOf { leaf, scale } => ("cutoff-of", Some(*leaf), Some(*scale)),
+        Figure::TimeConstantOf { leaf, scale } => ("time-constant-of", Some(*leaf), Some(*scale)),
+        Figure::WindowOf { leaf, scale } => ("window-of", Some(*leaf), Some(*scale)),
+        Figure::Several => ("several", None, None),
+    };
+    let text_of = |i: usize| d.quantities.get(i).map(|q| q.text.clone());
+    DesignRecord {
+        law: d.law.name(),
+        text: d.describe(),
+        figure,
+        figure_of: of.and_then(text_of),
+        figure_scale: finite(scale),
+        period: d.period.and_then(|(p, _)| text_of(p)),
+        period_unit_s: finite(d.period.map(|(_, u)| u)),
+        period_is_rate: d.period_is_rate,
+        cutoff_hz: finite(d.cutoff_hz()),
+        quantities: d
+            .quantities
+            .iter()
+            .map(|q| QuantityRecord {
+                text: q.text.clone(),
+                reason: q.reason.clone(),
+                file: q.met_at.map(|(f, _)| program.path(f).to_string()),
+                line: q.met_at.map(|(_, l)| l),
+                default: finite(q.default.map(|(v, _, _)| v)),
+                default_file: q.default.map(|(_, f, _)| program.path(f).to_string()),
+                default_line: q.default.map(|(_, _, l)| l),
+                argument: q.argument.as_ref().map(|(a, _, _)| a.clone()),
+                argument_file: q
+                    .argument
+                    .as_ref()
+                    .map(|(_, f, _)| program.path(*f).to_string()),
+                argument_line: q.argument.as_ref().map(|(_, _, l)| *l),
+            })
+            .collect(),
+        alpha_at_defaults: finite(d.alpha_at_defaults),
+    }
+}
+
+#[derive(Serialize)]
 struct Record<'a> {
     id: String,
     file: &'a str,
@@ -163,6 +253,8 @@ struct Record<'a> {
     update: &'a str,
     inputs: &'a [String],
     cascade: Option<CascadeRecord>,
+    /// For a coefficient computed at run time: its design law and what it fixes.
+    design: Option<DesignRecord>,
 }
 
 #[derive(Serialize)]
@@ -312,6 +404,7 @@ fn record<'a>(
             settle: settle_map(fig),
             noise_ratio: finite(fig.noise_ratio),
         }),
+        design: s.design.as_ref().map(|d| design_record(program, d)),
     }
 }
 

@@ -88,7 +88,12 @@ fn coefficient(s: &crate::recognise::Smoother) -> String {
                 format!("a={}", sig3(*a))
             }
         }
-        Coefficient::Adaptive { depends_on, .. } => format!("adaptive ({depends_on})"),
+        Coefficient::Adaptive { depends_on, .. } => {
+            match s.design.as_ref().and_then(|d| d.brief()) {
+                Some(brief) => format!("adaptive ({depends_on}; {brief})"),
+                None => format!("adaptive ({depends_on})"),
+            }
+        }
         Coefficient::Unknown { .. } => "unknown".into(),
     }
 }

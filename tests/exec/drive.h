@@ -53,9 +53,19 @@ struct drive_case {
     /* The update rate in Hz as the fixture's own constants give it (1.0 / DT_S), when they
      * state one; 0 when they do not. */
     double rate_hz;
+    /* For a gain a design law computes from a period and a configuration: the period in
+     * seconds that reset configures (with the code's own defaults). The driver prints it,
+     * and the test holds the reported law and design figures against the executed first
+     * step: the law's coordinate of alpha over this period is 2 pi times the cutoff. */
+    double design_dt_s;
     /* For a fixture that is a folder of files (fixtures/forms/<case>/): the file of the
      * update, relative to that folder ("tone.c"); NULL for a one-file fixture. */
     const char *file;
+    /* The most updates in a row the output may stay unchanged while the state still
+     * moves, when that is more than the 2 / alpha + 2 the driver allows by default: a
+     * scaled state that carries more bits than 1 / alpha (its input shifted up as well)
+     * holds its read-out longer. 0 for the default. */
+    long hold;
 };
 
 /* Defined by each <case>.drive.c, ended by an entry whose function is NULL. */

@@ -24,6 +24,7 @@
  *   alpha_alt=a              a gain that follows the time step: the first step run with
  *                            the other time step
  *   rate_hz=r                the update rate the fixture's own constants give
+ *   design_dt_s=t            a gain from a design law: the period the reset configured
  *   file=name                for a fixture folder: the file of the update in it
  *
  * Matching these figures with tauscan's is left to tests/exec_truth.rs.
@@ -128,8 +129,12 @@ static int measure(const struct drive_case *c)
         return 1;
     }
     /* Twice the time constant covers the longest run of an unchanged output while a
-     * scaled state is still moving (at most 1/alpha updates for a difference of 1). */
+     * scaled state is still moving (at most 1/alpha updates for a difference of 1), unless
+     * the case says its state carries more bits than that. */
     long hold = (long)ceil(2.0 / alpha) + 2;
+    if (c->hold > hold) {
+        hold = c->hold;
+    }
 
     c->reset(0.0);
     double dc = settle(c, c->scale, hold) / c->scale;
@@ -185,6 +190,9 @@ static int measure(const struct drive_case *c)
     }
     if (c->rate_hz > 0.0) {
         printf("\trate_hz=%.17g", c->rate_hz);
+    }
+    if (c->design_dt_s > 0.0) {
+        printf("\tdesign_dt_s=%.17g", c->design_dt_s);
     }
     if (c->file != NULL) {
         printf("\tfile=%s", c->file);
