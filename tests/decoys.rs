@@ -1,6 +1,8 @@
 //! Holds tauscan to silence on `fixtures/decoys`: C that refers to itself the way smoothers
 //! do (integrators, counters, peak holds, crossfades, slew limiters, leaky integrators,
-//! resonators, expo maps, checksums) and is not one.
+//! resonators and rotations, expo maps, checksums, number parsers, up/down trackers, gains
+//! computed at run time, dead stores, state that lives for one call, unit tests of a
+//! filter) and is not one.
 //!
 //! A second test makes sure the decoys still contain such self-referencing assignments,
 //! so that the first cannot pass on empty or defanged files. Deciding what is a smoother

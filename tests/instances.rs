@@ -153,3 +153,44 @@ fn macro_instances_are_placed_at_their_calls() {
     let problems = check_instances(fixture, "hive_sample", definition, &expected);
     assert!(problems.is_empty(), "{}", problems.join("\n"));
 }
+
+#[test]
+fn canal_lock_macro_calls_are_placed_at_their_calls() {
+    // One expansion per function: the low-pass macro on a global and on a field through
+    // the function's pointer parameter, and the eighths average that names its state
+    // twice. Each is placed at its call, in the function that expands it.
+    let fixture = "canal_lock.c";
+    let text = fixture_text(fixture);
+    let low_pass = line_of(&text, "#define LOCK_LP(", 0);
+    let average = line_of(&text, "#define LOCK_AVG8(", 0);
+    let calls = [
+        (
+            "lock_upper_sample",
+            low_pass,
+            "lock_upper_m",
+            "LOCK_LP(lock_upper_m,",
+        ),
+        (
+            "lock_chamber_sample",
+            low_pass,
+            "c->level_m",
+            "LOCK_LP(c->level_m,",
+        ),
+        (
+            "lock_paddle_sample",
+            average,
+            "g_lock_paddle_counts",
+            "LOCK_AVG8(g_lock_paddle_counts,",
+        ),
+    ];
+    let mut problems = Vec::new();
+    for (function, definition, state, call) in calls {
+        problems.extend(check_instances(
+            fixture,
+            function,
+            definition,
+            &[(state, call.to_string())],
+        ));
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}

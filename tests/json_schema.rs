@@ -42,6 +42,7 @@ fn every_fixture_tree_validates_against_the_documented_schema() {
         "fixtures/demo-greenhouse",
         "fixtures/forms",
         "fixtures/decoys",
+        "fixtures/instances",
     ] {
         let doc = list_json(tree);
         let errors: Vec<String> = validator
