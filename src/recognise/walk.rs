@@ -1509,10 +1509,19 @@ impl<'a> Walker<'a> {
                     }
                 }
                 // An update stored on this path and replaced here before anything read it
-                // is dead.
+                // is dead: not read by the new value, by the condition the replacement is
+                // under (a clamp), or by a store since.
                 if let Some(previous) = self.env.get(Key::Place(place)) {
                     if let Node::Stored { value: stored, .. } = *self.g.node(previous.value) {
-                        if !self.g.reaches(v, previous.value, REACH_LIMIT) {
+                        let read = self.g.reaches(v, previous.value, REACH_LIMIT)
+                            || self
+                                .guards
+                                .iter()
+                                .any(|&c| self.g.reaches(c, previous.value, REACH_LIMIT))
+                            || self.stores.iter().rev().take(64).any(|&(p, x)| {
+                                p != place && self.g.reaches(x, previous.value, REACH_LIMIT)
+                            });
+                        if !read {
                             for c in self.candidates.iter_mut() {
                                 if c.place == place && c.value == stored && c.instance.is_none() {
                                     c.overwritten = true;
