@@ -698,6 +698,11 @@ pub fn identical(a: &Poly, b: &Poly, atoms: &[AtomKind], _g: &Graph) -> bool {
     if a == b {
         return true;
     }
+    // Weights over different signals are different, however small their scale (a Q31
+    // gain's 2^-31 would pass the numeric test below for any two).
+    if leaves_of(a, atoms) != leaves_of(b, atoms) {
+        return false;
+    }
     let mut rng = Lcg::new(atoms.len() as u64 + 7);
     for _ in 0..4 {
         let leaves: Vec<f64> = (0..atoms.len()).map(|_| rng.next_value()).collect();
@@ -711,6 +716,31 @@ pub fn identical(a: &Poly, b: &Poly, atoms: &[AtomKind], _g: &Graph) -> bool {
         }
     }
     true
+}
+
+/// The leaf atoms a polynomial is made of, through products, composites and inverses.
+fn leaves_of(p: &Poly, atoms: &[AtomKind]) -> std::collections::BTreeSet<AtomId> {
+    let mut out = std::collections::BTreeSet::new();
+    let mut stack: Vec<AtomId> = p.atoms();
+    let mut seen = 0;
+    while let Some(a) = stack.pop() {
+        seen += 1;
+        if seen > 4096 {
+            break;
+        }
+        match atoms.get(a as usize) {
+            Some(AtomKind::Product(factors)) => stack.extend(factors.iter().copied()),
+            Some(AtomKind::Composite { signal, .. }) => stack.extend(signal.atoms()),
+            Some(AtomKind::Inverse(_, den)) => {
+                out.insert(a);
+                stack.extend(den.atoms());
+            }
+            _ => {
+                out.insert(a);
+            }
+        }
+    }
+    out
 }
 
 /// Values of all atoms given values for the leaves (inverses computed from them; an
