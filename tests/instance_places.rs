@@ -370,3 +370,21 @@ fn macros_that_nothing_expands_are_listed_as_definitions() {
     }
     assert!(problems.is_empty(), "{}", problems.join("\n"));
 }
+
+#[test]
+fn instances_stop_at_the_nearest_call_and_a_relay_is_no_filter_function() {
+    let fixture = "relay_protocol.c";
+    let text = fixture_text(fixture);
+    let apply = line_of(&text, "float lock_lpf_apply(", 0);
+    let update = line_of(&text, "f->y += f->k * (u - f->y);", apply);
+    // Source: the fixture's text: the one call of the filter function is in `lock_relay`;
+    // the calls of the relays in `lock_on_frame` pass objects to a function that is no
+    // filter function, so they are not instances.
+    let expected = [Expected {
+        function: "lock_relay",
+        state: "f->y",
+        call: "lock_lpf_apply(f, x);",
+    }];
+    let problems = check_instances(fixture, "lock_lpf_apply", update, &expected);
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}

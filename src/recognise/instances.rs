@@ -367,11 +367,7 @@ fn guard_always_false(program: &Program, w: &WalkResult, guard: V, span: crate::
         }
         let mut ev = Evaluator::new(program);
         ev.shared_fields = false;
-        let r = ev.eval(&expr, &scope);
-        if std::env::var("TAUSCAN_PROBE").is_ok() {
-            eprintln!("guard {expr} with {:?} -> {r:?}", scope.values);
-        }
-        match r {
+        match ev.eval(&expr, &scope) {
             Ok(v) if v.is_zero() => {}
             _ => return false,
         }
