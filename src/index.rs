@@ -899,6 +899,22 @@ impl Program {
         self.branch_tri_by(branch, &mut |n| self.defined_tri_of(n))
     }
 
+    /// A relative path with `.` and `..` segments resolved (`a/b/../c` is `a/c`); a `..` that
+    /// climbs out of the root is kept.
+    fn normalise_path(path: &str) -> String {
+        let mut parts: Vec<&str> = Vec::new();
+        for segment in path.split('/') {
+            match segment {
+                "" | "." => {}
+                ".." if parts.last().is_some_and(|p| *p != "..") => {
+                    parts.pop();
+                }
+                other => parts.push(other),
+            }
+        }
+        parts.join("/")
+    }
+
     /// Finds, for each `#include` of each file, the files of the scan it can name: the file
     /// of that path relative to the including file's folder, else those whose path ends
     /// with it. Which of several is meant depends on the file being compiled (each board's
@@ -927,11 +943,14 @@ impl Program {
                 let Some(cands) = by_name.get(base) else {
                     continue;
                 };
-                let joined = if dir.is_empty() {
+                let joined = Self::normalise_path(&if dir.is_empty() {
                     wanted.to_string()
                 } else {
                     format!("{dir}/{wanted}")
-                };
+                });
+                // A path that climbs (`../../common/ctrl.h`) names its file by what
+                // follows the climb when it leaves the scan.
+                let wanted = wanted.trim_start_matches("../").trim_start_matches("./");
                 let relative: Vec<usize> = cands
                     .iter()
                     .copied()

@@ -2,7 +2,9 @@
 //! gain from its own board's header.
 //!
 //! `fixtures/board_headers` is a funicular railway's two car controllers. Both include the
-//! shared `common/ctrl.h` through the include path (`#include "ctrl.h"`), which includes
+//! shared `common/ctrl.h` through the include path (`#include "ctrl.h"`; in
+//! `fixtures/board_headers_relative`, by its path from the file, `"../../common/ctrl.h"`),
+//! which includes
 //! `"board.h"`; `boards/a/board.h` defines `BOARD_LP_K 0.25f`, `boards/b/board.h` `0.5f`. The
 //! C compiler finds `board.h` for a board only with that board's `-I` flag: C11 6.10.2p2-3
 //! leave the search for a quoted name to the implementation, and the GCC manual ("Search
@@ -30,8 +32,12 @@ fn crate_root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
-fn fixture_root() -> PathBuf {
-    crate_root().join("fixtures").join("board_headers")
+/// The two fixtures: the shared header found through the include path, or by a path
+/// relative to the including file.
+const FIXTURES: [&str; 2] = ["board_headers", "board_headers_relative"];
+
+fn fixture_root(fixture: &str) -> PathBuf {
+    crate_root().join("fixtures").join(fixture)
 }
 
 /// One car's controller: its folder under `boards/`, its file and its sample function.
@@ -59,8 +65,8 @@ const BOARDS: [Board; 2] = [
 
 /// The first step from rest at 0 toward 1000 kN, by compiling the board with its own
 /// include path and running one update: alpha = y1 / 1000.
-fn executed_alpha(board: &Board) -> f64 {
-    let root = fixture_root();
+fn executed_alpha(fixture: &str, board: &Board) -> f64 {
+    let root = fixture_root(fixture);
     let dir = tempfile::tempdir().unwrap();
     let driver = dir.path().join("drive.c");
     std::fs::write(
@@ -123,7 +129,7 @@ fn record<'a>(smoothers: &'a [Value], board: &Board) -> &'a Value {
     record
 }
 
-fn check_scan(args: &[&str]) {
+fn check_scan(fixture: &str, args: &[&str]) {
     let run = common::tauscan_in(&crate_root(), args, common::LIMIT);
     run.assert_exit(0, "two float smoothers and no spec: nothing to report");
     let json = run.json();
@@ -131,7 +137,7 @@ fn check_scan(args: &[&str]) {
     assert_eq!(smoothers.len(), 2, "{json}");
     for board in &BOARDS {
         let record = record(smoothers, board);
-        let executed = executed_alpha(board);
+        let executed = executed_alpha(fixture, board);
         let reported = record["alpha"].as_f64();
         // Source: execution of the board's file with the system C compiler (cc) and that
         // board's -I flag; the first step is one float rounding of alpha * 1000.
@@ -153,29 +159,41 @@ fn check_scan(args: &[&str]) {
             record["coefficient_chain"]
         );
         assert_eq!(record["dc_gain"].as_f64(), Some(1.0), "{record}");
+        // Source: the fixture's text: the other board's header is not a preprocessor
+        // branch of this board's build, so it gives no variant.
+        assert_eq!(
+            record["variants"].as_array().map(Vec::len),
+            Some(0),
+            "{record}"
+        );
     }
 }
 
 #[test]
 fn each_board_takes_its_gain_from_its_own_board_header() {
-    check_scan(&["list", "--format", "json", "fixtures/board_headers"]);
+    for fixture in FIXTURES {
+        let root = format!("fixtures/{fixture}");
+        check_scan(fixture, &["list", "--format", "json", &root]);
+    }
 }
 
 #[test]
 fn the_compilation_database_gives_each_board_its_own_header() {
-    check_scan(&[
-        "list",
-        "--format",
-        "json",
-        "--compile-commands",
-        "fixtures/board_headers/compile_commands.json",
-    ]);
+    for fixture in FIXTURES {
+        let database = format!("fixtures/{fixture}/compile_commands.json");
+        check_scan(
+            fixture,
+            &["list", "--format", "json", "--compile-commands", &database],
+        );
+    }
 }
 
 #[test]
 fn the_executed_alphas_are_the_board_headers_values() {
     // Source: the fixture's text (BOARD_LP_K in boards/a/board.h and boards/b/board.h),
     // and execution: 0.25f and 0.5f are exact in float, so are their first steps.
-    assert_eq!(executed_alpha(&BOARDS[0]), 0.25);
-    assert_eq!(executed_alpha(&BOARDS[1]), 0.5);
+    for fixture in FIXTURES {
+        assert_eq!(executed_alpha(fixture, &BOARDS[0]), 0.25);
+        assert_eq!(executed_alpha(fixture, &BOARDS[1]), 0.5);
+    }
 }

@@ -939,6 +939,14 @@ fn variants_of(
             {
                 continue;
             }
+            // Another file's definition is a variant only when this file can include it:
+            // another board's header is no preprocessor branch of this build.
+            let def_file = def.span.file.0 as usize;
+            let reachable = def.span.file == step.file
+                || file.is_some_and(|f| program.include_closure(f).contains(&def_file));
+            if !reachable {
+                continue;
+            }
             let make = || {
                 let mut ev = new_evaluator(program, walk);
                 ev.macro_override = Some(def.clone());
