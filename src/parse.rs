@@ -458,6 +458,183 @@ fn blank_computed_includes(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
     }
 }
 
+/// Ends with a `;` each line of a function body that is only a macro's name or call
+/// (`SMOOTH_FLOW`, `ENTER_CRITICAL()`) with no semicolon, where the macro supplies its own
+/// or is a statement prefix: the grammar otherwise reads it as the type of the next
+/// statement. The line keeps its length (the name moves one column left into its
+/// indentation), so every line keeps its number.
+fn terminate_bare_macro_lines(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
+    // Lines: (start, end) byte ranges, and the kind of block each line starts in.
+    let mut lines: Vec<(usize, usize, bool)> = Vec::new();
+    let mut kinds: Vec<bool> = Vec::new(); // per open brace: a block of code
+    let mut i = 0;
+    let mut line_start = 0;
+    let mut line_code = false;
+    let mut last_sig: u8 = b';';
+    // Words are byte ranges of the source: the last whole word, the one being read.
+    let mut last_word = (0usize, 0usize);
+    let mut word: Option<usize> = None;
+    // The word before each open parenthesis, and before the one last closed.
+    let mut paren_words: Vec<(usize, usize)> = Vec::new();
+    let mut closed_word = (0usize, 0usize);
+    let n = source.len();
+    let is_word = |b: u8| b.is_ascii_alphanumeric() || b == b'_';
+    while i < n {
+        let b = source[i];
+        if !is_word(b) {
+            if let Some(start) = word.take() {
+                last_word = (start, i);
+            }
+        }
+        match b {
+            b'\n' => {
+                lines.push((line_start, i, line_code));
+                line_start = i + 1;
+                line_code = kinds.last().copied().unwrap_or(false);
+                i += 1;
+                continue;
+            }
+            b'/' if source.get(i + 1) == Some(&b'/') => {
+                while i < n && source[i] != b'\n' {
+                    i += 1;
+                }
+                continue;
+            }
+            b'/' if source.get(i + 1) == Some(&b'*') => {
+                i += 2;
+                while i + 1 < n && !(source[i] == b'*' && source[i + 1] == b'/') {
+                    if source[i] == b'\n' {
+                        lines.push((line_start, i, false));
+                        line_start = i + 1;
+                    }
+                    i += 1;
+                }
+                i += 2;
+                continue;
+            }
+            b'"' | b'\'' => {
+                i += 1;
+                while i < n && source[i] != b && source[i] != b'\n' {
+                    if source[i] == b'\\' {
+                        i += 1;
+                    }
+                    i += 1;
+                }
+                last_sig = b;
+                i += 1;
+                continue;
+            }
+            b'(' => {
+                paren_words.push(std::mem::take(&mut last_word));
+                if paren_words.len() > 4096 {
+                    return std::borrow::Cow::Borrowed(source);
+                }
+            }
+            b')' => {
+                closed_word = paren_words.pop().unwrap_or_default();
+            }
+            b'{' => {
+                let in_code = kinds.last().copied().unwrap_or(false);
+                // `name(...) {` opens code (a function, a control statement); `(T){` is a
+                // compound literal, `= {` an initialiser.
+                let closed = &source[closed_word.0..closed_word.1];
+                let after_call = last_sig == b')'
+                    && !closed.is_empty()
+                    && !matches!(closed, b"return" | b"sizeof");
+                let code = (in_code && !matches!(last_sig, b'=' | b')' | b','))
+                    || after_call
+                    || matches!(&source[last_word.0..last_word.1], b"else" | b"do");
+                kinds.push(code);
+                if kinds.len() > 256 {
+                    return std::borrow::Cow::Borrowed(source);
+                }
+            }
+            b'}' => {
+                kinds.pop();
+            }
+            _ => {}
+        }
+        if is_word(b) && word.is_none() {
+            word = Some(i);
+        }
+        if !b.is_ascii_whitespace() {
+            last_sig = b;
+            if !is_word(b) {
+                last_word = (0, 0);
+            }
+        }
+        i += 1;
+    }
+    lines.push((line_start, n, line_code));
+    let text = |k: usize| -> &[u8] {
+        let (a, b, _) = lines[k];
+        trim_blank(&source[a..b])
+    };
+    let bare = |t: &[u8]| -> bool {
+        let t = t.trim_ascii_end();
+        let name_len = t
+            .iter()
+            .position(|c| !(c.is_ascii_uppercase() || c.is_ascii_digit() || *c == b'_'))
+            .unwrap_or(t.len());
+        if name_len < 2 || !t[0].is_ascii_uppercase() {
+            return false;
+        }
+        let rest = trim_blank(&t[name_len..]);
+        if rest.is_empty() {
+            return true;
+        }
+        // A call with balanced parentheses and nothing after it.
+        if rest[0] != b'(' || rest.last() != Some(&b')') {
+            return false;
+        }
+        let mut depth = 0i32;
+        for (k, c) in rest.iter().enumerate() {
+            match c {
+                b'(' => depth += 1,
+                b')' => {
+                    depth -= 1;
+                    if depth == 0 && k + 1 != rest.len() {
+                        return false;
+                    }
+                }
+                b';' | b'{' | b'}' | b'"' => return false,
+                _ => {}
+            }
+        }
+        depth == 0
+    };
+    let mut out: Option<Vec<u8>> = None;
+    for k in 0..lines.len() {
+        let (a, b, code) = lines[k];
+        if !code || b <= a || !matches!(source[a], b' ' | b'\t') || !bare(text(k)) {
+            continue;
+        }
+        // The line before ends a statement or opens a block; the line after starts one.
+        let before = (0..k).rev().map(text).find(|t| !t.is_empty());
+        let after = (k + 1..lines.len()).map(text).find(|t| !t.is_empty());
+        let ends = before.is_none_or(|t| {
+            matches!(
+                t.trim_ascii_end().last(),
+                Some(b';' | b'{' | b'}' | b':' | b')')
+            )
+        });
+        let starts = after.is_some_and(|t| {
+            t[0].is_ascii_alphabetic() || matches!(t[0], b'_' | b'}' | b'#' | b'*')
+        });
+        if !(ends && starts) {
+            continue;
+        }
+        let buffer = out.get_or_insert_with(|| source.to_vec());
+        let end = a + (source[a..b].trim_ascii_end().len());
+        buffer.copy_within(a + 1..end, a);
+        buffer[end - 1] = b';';
+    }
+    match out {
+        Some(v) => std::borrow::Cow::Owned(v),
+        None => std::borrow::Cow::Borrowed(source),
+    }
+}
+
 fn trim_blank(bytes: &[u8]) -> &[u8] {
     let skip = bytes
         .iter()
@@ -474,7 +651,8 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
     };
     let without_comments = blank_directive_comments(source);
     let without_includes = blank_computed_includes(&without_comments);
-    let source: &[u8] = &without_includes;
+    let terminated = terminate_bare_macro_lines(&without_includes);
+    let source: &[u8] = &terminated;
     let Some(tree) = parse_tree(source) else {
         ir.problems.push(ParseProblem {
             span: Span {
@@ -1905,6 +2083,23 @@ fn parse_hex_float(text: &str) -> Option<f64> {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn bare_macro_lines_in_bodies_are_ended_and_nothing_else_moves() {
+        let src = b"void f(void)\n{\n    ENTER_CRITICAL()\n    y += (u - y) >> 2;\n    SMOOTH_FLOW\n    n++;\n}\nstruct s {\n    FIELDS\n    int x;\n};\nint *p = (int[]){\n    ONE\n};\n";
+        let out = terminate_bare_macro_lines(src);
+        let text = String::from_utf8_lossy(&out);
+        assert_eq!(out.len(), src.len());
+        assert!(text.contains("\n   ENTER_CRITICAL();\n"), "{text}");
+        assert!(text.contains("\n   SMOOTH_FLOW;\n"), "{text}");
+        // A struct body and a compound literal are data, not code.
+        assert!(text.contains("\n    FIELDS\n"), "{text}");
+        assert!(text.contains("\n    ONE\n"), "{text}");
+        assert_eq!(
+            text.lines().count(),
+            String::from_utf8_lossy(src).lines().count()
+        );
+    }
     use super::*;
 
     #[test]
