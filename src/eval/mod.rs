@@ -1300,6 +1300,24 @@ pub fn place_type(program: &Program, function: Option<FuncRef>, expr: &Expr) -> 
             arg,
         } => CType::Pointer(Box::new(place_type(program, function, arg)?)),
         ExprKind::Cast { ty, .. } => ty.clone(),
+        // Pointer arithmetic (`(f + i)->y`): the pointer's type (C11 6.5.6).
+        // The difference of two pointers is an integer.
+        ExprKind::Binary {
+            op: op @ (BinaryOp::Add | BinaryOp::Sub),
+            lhs,
+            rhs,
+        } => {
+            let pointer = |e: &Expr| match program.resolve_type(&place_type(program, function, e)?)
+            {
+                CType::Pointer(inner) | CType::Array(inner, _) => Some(CType::Pointer(inner)),
+                _ => None,
+            };
+            match (pointer(lhs), pointer(rhs), op) {
+                (Some(p), None, _) => p,
+                (None, Some(p), BinaryOp::Add) => p,
+                _ => return None,
+            }
+        }
         _ => return None,
     };
     Some(program.resolve_type(&ty))

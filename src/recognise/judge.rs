@@ -460,7 +460,16 @@ fn storage_of(program: &Program, walk: &WalkResult, c: &Candidate) -> Option<Sto
         StateKind::Recurrence => return Some(Storage::ArrayElement),
         StateKind::Place => {}
     }
-    let (root, root_home, local_object) = g.place_root(c.state)?;
+    let Some((root, root_home, local_object)) = g.place_root(c.state) else {
+        // Memory reached through a pointer a function returns outlives the call, unless
+        // the function has just allocated it (C11 7.22.3).
+        let callee = g.place_call_root(c.state)?;
+        let allocator = matches!(
+            g.name(callee),
+            "malloc" | "calloc" | "realloc" | "alloca" | "pvPortMalloc"
+        );
+        return (!allocator).then_some(Storage::Pointer);
+    };
     if local_object {
         if c.in_loop {
             return Some(Storage::LoopLocal);
@@ -521,8 +530,8 @@ fn state_type(program: &Program, walk: &WalkResult, c: &Candidate) -> Option<CTy
 }
 
 /// Fixed point: a product with an integer constant brought back by a shift of 8 or more.
-fn arithmetic_of(g: &Graph, state_type: &Option<CType>, value: V) -> Arithmetic {
-    let mut has_float = false;
+fn arithmetic_of(g: &Graph, state_type: &Option<CType>, value: V, float_input: bool) -> Arithmetic {
+    let mut has_float = float_input;
     let mut fixed = false;
     let mut stack = vec![value];
     let mut seen = std::collections::HashSet::new();
@@ -633,21 +642,30 @@ fn build(
             };
         }
     }
-    let arithmetic = arithmetic_of(g, &reading.state_type, c.value);
     let inputs: Vec<V> = reading
         .affine
         .inputs
         .iter()
         .filter_map(|(a, _)| reading.affine.leaf(*a))
         .collect();
-    let input_types: Vec<CType> = inputs
+    let declared_inputs: Vec<Option<CType>> = inputs
         .iter()
         .map(|v| {
             let home = home_of(g, *v, walk.home);
             let f = home_function(walk, home);
             g.to_expr(*v, c.span, true, 2000)
                 .and_then(|e| eval::place_type(program, f, &e))
-                .or_else(|| reading.state_type.clone())
+        })
+        .collect();
+    // A state of a type the scan cannot see (`real_T` from a header outside it) takes its
+    // arithmetic from the inputs: one declared `float` makes the expression float (C11
+    // 6.3.1.8, the usual arithmetic conversions).
+    let float_input = declared_inputs.iter().flatten().any(CType::is_float);
+    let arithmetic = arithmetic_of(g, &reading.state_type, c.value, float_input);
+    let input_types: Vec<CType> = declared_inputs
+        .into_iter()
+        .map(|t| {
+            t.or_else(|| reading.state_type.clone())
                 .unwrap_or(CType::Double)
         })
         .collect();

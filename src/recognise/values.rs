@@ -769,6 +769,26 @@ impl Graph {
         None
     }
 
+    /// The callee whose returned pointer a place is reached through (`get_zone(i)->level`),
+    /// if its base is a call rather than a variable.
+    pub fn place_call_root(&self, v: V) -> Option<Sym> {
+        let mut v = v;
+        for _ in 0..256 {
+            match self.node(v) {
+                Node::Call { callee, .. } => return Some(*callee),
+                Node::Field { base, .. } | Node::Index { base, .. } | Node::Deref(base) => {
+                    v = *base
+                }
+                Node::AddrOf(a) | Node::Cast(_, a) => v = *a,
+                Node::Local { value, .. } | Node::Stored { value, .. } => v = *value,
+                Node::Version { place, .. } => v = *place,
+                Node::Binary(BinaryOp::Add | BinaryOp::Sub, a, _) => v = *a,
+                _ => return None,
+            }
+        }
+        None
+    }
+
     /// The value as C text, at most about `limit` bytes (longer text ends in `…`). Locals
     /// print as their names.
     pub fn display(&self, v: V, limit: usize) -> String {
