@@ -212,6 +212,49 @@ impl Update {
         Some(last as u64)
     }
 
+    /// The whole run of inputs around `out` that leave the state `s` where it is, found by
+    /// bisection on the assumption that a smoother's result never falls as its input rises:
+    /// a split truncation (`y = y/8*7; y += u/8;`) rests only for inputs dozens of counts
+    /// away, past any run of moving inputs a step-by-step scan would wait through. Each
+    /// answer is confirmed step by step over the run and just outside it, so a result that
+    /// breaks the assumption gives nothing rather than a wrong run. (rising, falling)
+    /// distances from `out`, or None.
+    fn stall_interval(&self, s: i128, out: i128, reach: (i128, i128)) -> Option<(u64, u64)> {
+        let (lo_end, hi_end) = (out - reach.1, out + reach.0);
+        let moved = |u: i128| self.step(s, u).map(|v| v.cmp(&s));
+        // The first input whose result is not below the state, and the last whose result is
+        // not above it.
+        let (mut a, mut b) = (lo_end, hi_end + 1);
+        while a < b {
+            let m = a + (b - a) / 2;
+            if moved(m)? == std::cmp::Ordering::Less {
+                a = m + 1;
+            } else {
+                b = m;
+            }
+        }
+        let first = a;
+        let (mut a, mut b) = (lo_end - 1, hi_end);
+        while a < b {
+            let m = b - (b - a) / 2;
+            if moved(m)? == std::cmp::Ordering::Greater {
+                b = m - 1;
+            } else {
+                a = m;
+            }
+        }
+        let last = a;
+        if first > last || last - first > 1 << 16 {
+            return None;
+        }
+        for u in first..=last {
+            if moved(u)? != std::cmp::Ordering::Equal {
+                return None;
+            }
+        }
+        Some(((last - out).max(0) as u64, (out - first).max(0) as u64))
+    }
+
     /// The dead band, for an integer state; None for float state or when the update
     /// cannot be run (an unknown constant, a type that cannot hold the test values).
     pub fn dead_band(&self, alpha: f64) -> Option<DeadBand> {
@@ -236,6 +279,13 @@ impl Update {
             1 << 12
         };
         let bases = ((1i128 << 20) / span.max(1)).clamp(4, 64);
+        // How far the bisection looks: a truncation in each of two statements rests up to
+        // about 1/alpha^2 counts away.
+        let reach = if alpha > 0.0 && alpha.is_finite() {
+            ((1.0 / (alpha * alpha)).ceil() as i128 + 64).clamp(span, 1 << 20)
+        } else {
+            span
+        };
         // Stalls come in runs no further apart than about one time constant; once this
         // many steps past the last stall have all moved, no further stall is coming.
         let gap = if alpha > 0.0 && alpha.is_finite() {
@@ -267,6 +317,14 @@ impl Update {
                 let down_limit = span.min(out - input_min);
                 rising = rising.max(self.stall_run(s, out, up_limit, 1, gap)?);
                 falling = falling.max(self.stall_run(s, out, down_limit, -1, gap)?);
+                let reach = (
+                    reach.min(input_max - out).max(0),
+                    reach.min(out - input_min).max(0),
+                );
+                if let Some((up, down)) = self.stall_interval(s, out, reach) {
+                    rising = rising.max(up);
+                    falling = falling.max(down);
+                }
             }
         }
         Some(DeadBand { rising, falling })
@@ -346,6 +404,33 @@ mod tests {
             u.dead_band(0.125),
             Some(DeadBand {
                 rising: 7,
+                falling: 0
+            })
+        );
+    }
+
+    #[test]
+    fn split_truncation_rests_far_below_a_rise() {
+        // (y / 8) * 7 + u / 8 over uint16_t. Source: C11 6.5.5 and a derivation by hand:
+        // with q = u / 8 and m = y / 8, y = 7m + q is at rest for m in [q - 7, q], so as
+        // low as 8q - 49 under an input as high as 8q + 7: 56 counts below, never above.
+        // (Below zero, a signed state would mirror it: truncation toward zero.)
+        let kept = Box::new(Node::Binary(
+            BinaryOp::Mul,
+            Box::new(Node::Binary(BinaryOp::Div, slot(0), k(8))),
+            k(7),
+        ));
+        let share = Box::new(Node::Binary(BinaryOp::Div, slot(1), k(8)));
+        let u16t = super::build::int_type(16, false);
+        let u = Update {
+            state_type: u16t.clone(),
+            input_types: vec![u16t],
+            ..update(Node::Binary(BinaryOp::Add, kept, share))
+        };
+        assert_eq!(
+            u.dead_band(0.125),
+            Some(DeadBand {
+                rising: 56,
                 falling: 0
             })
         );

@@ -66,6 +66,10 @@ struct drive_case {
      * scaled state that carries more bits than 1 / alpha (its input shifted up as well)
      * holds its read-out longer. 0 for the default. */
     long hold;
+    /* The farthest rise or fall from rest the dead-band search tries, when more than the
+     * 4 / alpha + 8 counts it tries by default: a form that truncates in two statements
+     * can rest about 1 / alpha^2 counts away. 0 for the default. */
+    long reach;
 };
 
 /* Defined by each <case>.drive.c, ended by an entry whose function is NULL. */

@@ -145,6 +145,9 @@ static int measure(const struct drive_case *c)
         /* The dead bands of the forms under test are below 1/alpha counts; four times that
          * leaves room for forms that truncate twice. */
         long limit = (long)ceil(4.0 / alpha) + 8;
+        if (c->reach > limit) {
+            limit = c->reach;
+        }
         double half = floor(c->scale / 2.0);
         double rising = 0.0;
         double falling = 0.0;
