@@ -176,8 +176,19 @@ fn compute_return(program: &Program, f: FuncRef) -> Option<ReturnTemplate> {
         summaries: None,
         budget: 20_000,
     };
-    let r = walk_function(&setup);
-    if !r.straight || !r.stores.is_empty() || r.returns.len() != 1 || r.exhausted {
+    let folded = fold_early_returns(&function.body);
+    let r = match &folded {
+        Some(body) => walk_function_body(&setup, body),
+        None => walk_function(&setup),
+    };
+    // Branches are allowed when they only choose a value (`if (v > MAX) r = MAX; else ...
+    // return r;`): one return, on every path, and no loop or switch.
+    let branched_value = r.returns.len() == 1 && r.returns[0].1 && only_branches(&function.body, 0);
+    if !(r.straight || branched_value)
+        || !r.stores.is_empty()
+        || r.returns.len() != 1
+        || r.exhausted
+    {
         return None;
     }
     let (root, _) = r.returns[0];
@@ -292,7 +303,91 @@ struct Walker<'a> {
 }
 
 /// Walks a function body.
+/// Whether a body has no loop, switch or preprocessor conditional, at any depth (up to 16).
+fn only_branches(body: &[Stmt], depth: usize) -> bool {
+    depth < 16
+        && body.iter().all(|s| match s {
+            Stmt::Expr(_) | Stmt::Decl(_) | Stmt::Return(..) | Stmt::Other(_) => true,
+            Stmt::Block(items) => only_branches(items, depth + 1),
+            Stmt::If {
+                then, otherwise, ..
+            } => {
+                only_branches(std::slice::from_ref(&**then), depth + 1)
+                    && otherwise
+                        .as_deref()
+                        .is_none_or(|o| only_branches(std::slice::from_ref(o), depth + 1))
+            }
+            Stmt::Loop { .. } | Stmt::Switch { .. } | Stmt::Conditional(_) => false,
+        })
+}
+
+/// A saturation helper written with early returns (`if (v > MAX) return MAX; if (v < MIN)
+/// return MIN; return v;`), as the one conditional it computes: the declarations and
+/// expression statements before the first guarded return, then
+/// `return c1 ? a : c2 ? b : v;`. None for any other shape.
+fn fold_early_returns(body: &[Stmt]) -> Option<Vec<Stmt>> {
+    fn lone_return(s: &Stmt) -> Option<&Expr> {
+        match s {
+            Stmt::Return(Some(e), _) => Some(e),
+            Stmt::Block(items) if items.len() == 1 => lone_return(&items[0]),
+            _ => None,
+        }
+    }
+    let first = body.iter().position(|s| matches!(s, Stmt::If { .. }))?;
+    if !body[..first]
+        .iter()
+        .all(|s| matches!(s, Stmt::Decl(_) | Stmt::Expr(_)))
+    {
+        return None;
+    }
+    let mut guarded: Vec<(&Expr, &Expr)> = Vec::new();
+    let mut last: Option<&Expr> = None;
+    for (k, s) in body[first..].iter().enumerate() {
+        let at_end = first + k + 1 == body.len();
+        match s {
+            Stmt::If {
+                cond,
+                then,
+                otherwise,
+            } => {
+                guarded.push((cond, lone_return(then)?));
+                match otherwise {
+                    None => {}
+                    Some(other) if at_end => last = Some(lone_return(other)?),
+                    Some(_) => return None,
+                }
+            }
+            Stmt::Return(Some(e), _) if at_end => last = Some(e),
+            _ => return None,
+        }
+    }
+    let mut value = last?.clone();
+    for (cond, then) in guarded.into_iter().rev() {
+        let span = cond.span;
+        value = Expr {
+            kind: ExprKind::Conditional {
+                cond: Box::new(cond.clone()),
+                then: Box::new(then.clone()),
+                otherwise: Box::new(value),
+            },
+            span,
+        };
+    }
+    let span = value.span;
+    let mut out: Vec<Stmt> = body[..first].to_vec();
+    out.push(Stmt::Return(Some(value), span));
+    Some(out)
+}
+
 pub fn walk_function(setup: &Setup) -> WalkResult {
+    match setup.function {
+        Some(f) => walk_function_body(setup, &setup.program.function(f).body),
+        None => Walker::new(setup).finish(),
+    }
+}
+
+/// Walks `body` as the body of `setup.function` (which gives the parameters).
+fn walk_function_body(setup: &Setup, body: &[Stmt]) -> WalkResult {
     let Some(f) = setup.function else {
         return Walker::new(setup).finish();
     };
@@ -312,7 +407,7 @@ pub fn walk_function(setup: &Setup) -> WalkResult {
             },
         );
     }
-    w.block(&function.body);
+    w.block(body);
     w.finish()
 }
 
