@@ -1485,9 +1485,15 @@ impl Lower<'_> {
                     continue;
                 }
                 if item.kind() == kind::INITIALIZER_PAIR {
-                    let designator = field_child(item, field::DESIGNATOR)
-                        .filter(|d| d.kind() == kind::FIELD_DESIGNATOR)
-                        .map(|d| self.text(d).trim_start_matches('.').trim().to_string());
+                    // `.k = ...` gives the field's name; `[2] = ...` keeps its brackets, so
+                    // that no reader takes the item for the next in order.
+                    let designator = field_child(item, field::DESIGNATOR).map(|d| {
+                        if d.kind() == kind::FIELD_DESIGNATOR {
+                            self.text(d).trim_start_matches('.').trim().to_string()
+                        } else {
+                            self.text(d).trim().to_string()
+                        }
+                    });
                     let value = field_child(item, field::VALUE)
                         .map(|v| self.initializer(v, depth + 1))
                         .unwrap_or(Initializer::List(Vec::new()));

@@ -388,3 +388,24 @@ fn instances_stop_at_the_nearest_call_and_a_relay_is_no_filter_function() {
     let problems = check_instances(fixture, "lock_lpf_apply", update, &expected);
     assert!(problems.is_empty(), "{}", problems.join("\n"));
 }
+
+#[test]
+fn calls_whose_gain_from_a_const_table_is_zero_for_every_axis_are_not_instances() {
+    let fixture = "pid_axes.c";
+    let text = fixture_text(fixture);
+    let apply = line_of(&text, "float gimbal_dfilt_apply(", 0);
+    let update = line_of(
+        &text,
+        "f->d += f->a * (kd * (err - f->last) - f->d);",
+        apply,
+    );
+    // Source: the fixture's text: every entry of the const table `gimbal_kd` is zero, so the
+    // guard `kd != 0.0f` is false for each axis of the loop; FOCUS_KD is 0.3.
+    let expected = [Expected {
+        function: "gimbal_tick",
+        state: "gimbal_focus_d.d",
+        call: "gimbal_dfilt_apply(&gimbal_focus_d, FOCUS_KD, focus_err);",
+    }];
+    let problems = check_instances(fixture, "gimbal_dfilt_apply", update, &expected);
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}

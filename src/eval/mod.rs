@@ -631,9 +631,147 @@ impl<'p> Evaluator<'p> {
                 }
             }
         }
+        if let Some(v) = self.const_array_element(expr, scope) {
+            return v;
+        }
         let key = format!("place {text}");
         let file = scope.function.map(|f| f.file);
         self.guarded(key, |ev| ev.place_from_writes(expr, &text, file, scope))
+    }
+
+    /// An element of a `const` array read from its initialiser (`kd[i]`, `gains[2].k`):
+    /// the element at the index where the index is known, or the one value every element
+    /// has where it is not. Elements the list leaves out are zero (C11 6.7.9 par. 21).
+    /// None when the place is not of that shape or the list cannot be read by position.
+    fn const_array_element(&mut self, expr: &Expr, scope: &Scope) -> Option<Result<Num, Unknown>> {
+        let (indexed, field) = match &expr.kind {
+            ExprKind::Field {
+                base,
+                arrow: false,
+                field,
+            } => (&**base, Some(field.as_str())),
+            _ => (expr, None),
+        };
+        let ExprKind::Index { base, index } = &indexed.kind else {
+            return None;
+        };
+        let ExprKind::Ident(name) = &base.kind else {
+            return None;
+        };
+        let global = self
+            .program
+            .global_seen_from(name, scope.function.map(|f| f.file))?
+            .clone();
+        if !global.is_const {
+            return None;
+        }
+        let Some(Initializer::List(items)) = &global.init else {
+            return None;
+        };
+        if items.iter().any(|(d, _)| d.is_some()) || items.len() > 256 {
+            return None;
+        }
+        let CType::Array(element_ty, size) = self.program.resolve_type(&global.ty) else {
+            return None;
+        };
+        let size = match size {
+            Some(e) => {
+                let n = self.eval(&e, &Scope::default()).ok()?.as_f64();
+                (n.fract() == 0.0 && (0.0..=4096.0).contains(&n)).then_some(n as usize)?
+            }
+            None => items.len(),
+        };
+        let element_ty = self.program.resolve_type(&element_ty);
+        let target = self.target();
+        let read = |ev: &mut Self, k: usize| -> Result<Num, Unknown> {
+            let missing = || {
+                Ok(Num::int(
+                    0,
+                    IntType {
+                        bits: target.int_bits,
+                        signed: true,
+                    },
+                ))
+            };
+            let Some((_, item)) = items.get(k) else {
+                return missing().map(|v: Num| v.convert(&element_ty, target));
+            };
+            let item = match field {
+                None => item,
+                Some(field) => {
+                    let Initializer::List(members) = item else {
+                        return Err(Unknown::new(format!(
+                            "`{name}[{k}]` is not a braced struct"
+                        )));
+                    };
+                    let fields = ev
+                        .program
+                        .struct_fields(&element_ty)
+                        .unwrap_or(&[])
+                        .to_vec();
+                    let Some(position) = fields.iter().position(|f| f.name == field) else {
+                        return Err(Unknown::new(format!("no field `{field}` in `{name}`")));
+                    };
+                    let mut at = 0;
+                    let mut found = None;
+                    for (designator, member) in members {
+                        let this = match designator {
+                            Some(d) => fields
+                                .iter()
+                                .position(|f| &f.name == d)
+                                .unwrap_or(usize::MAX),
+                            None => at,
+                        };
+                        at = this.saturating_add(1);
+                        if this == position {
+                            found = Some(member);
+                        }
+                    }
+                    let ty = ev.program.resolve_type(&fields[position].ty);
+                    match found {
+                        Some(m) => m,
+                        None => return missing().map(|v: Num| v.convert(&ty, target)),
+                    }
+                }
+            };
+            let Initializer::Expr(e) = item else {
+                return Err(Unknown::new(format!("`{name}[{k}]` is a braced list")));
+            };
+            ev.record(
+                global.span.file,
+                global.span.line,
+                format!("{name}[{k}] = {e}"),
+            );
+            ev.eval(e, &Scope::default())
+        };
+        Some(match self.eval(index, scope) {
+            Ok(k) => {
+                let k = k.as_f64();
+                if !(k.fract() == 0.0 && k >= 0.0 && (k as usize) < size) {
+                    return None;
+                }
+                read(self, k as usize)
+            }
+            Err(unknown) => {
+                // Any index: one value, if every element has it.
+                let mut value: Option<Num> = None;
+                for k in 0..size.min(64) {
+                    let v = match read(self, k) {
+                        Ok(v) => v,
+                        Err(_) => return Some(Err(unknown)),
+                    };
+                    match value {
+                        None => value = Some(v),
+                        Some(w) if w.as_f64() == v.as_f64() => {}
+                        Some(_) => return Some(Err(unknown)),
+                    }
+                }
+                if size > 64 {
+                    return Some(Err(unknown));
+                }
+                value.ok_or(unknown)
+            }
+        })
     }
 
     /// The writes to a place as seen from `file`: the origin file's own first (where the

@@ -417,6 +417,11 @@ pub fn judge_explained(
                 .ok_or("weights that do not make a low-pass")?
         }
     };
+    // An update behind a condition that is false wherever it stands (a gain from a const
+    // table that is zero for every axis the loop visits) never runs.
+    if c.instance.is_none() && !super::instances::guards_may_hold(program, walk, i) {
+        return Err("a guard around it is false wherever it stands");
+    }
     Ok(build(reading, verdict, storage, options))
 }
 

@@ -653,6 +653,10 @@ impl<'a> Walker<'a> {
             let base = self.g.local_object(s, self.home);
             if let Some(Initializer::List(items)) = &d.init {
                 for (k, (designator, item)) in items.iter().enumerate().take(64) {
+                    // Past an index designator (`[2] = ...`) positions are not counted here.
+                    if designator.as_deref().is_some_and(|d| d.starts_with('[')) {
+                        break;
+                    }
                     let Initializer::Expr(e) = item else { continue };
                     let place = match designator {
                         Some(name) => {
