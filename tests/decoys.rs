@@ -2,7 +2,8 @@
 //! do (integrators, counters, peak holds, crossfades, slew limiters, leaky integrators,
 //! resonators and rotations, expo maps, checksums, number parsers, up/down trackers, gains
 //! computed at run time, dead stores, state that lives for one call, unit tests of a
-//! filter, an update behind a guard that a const table makes false) and is not one.
+//! filter, an update behind a guard that a const table makes false, a coupled pair such
+//! as a fixed-point rotation) and is not one.
 //!
 //! A second test makes sure the decoys still contain such self-referencing assignments,
 //! so that the first cannot pass on empty or defanged files. Deciding what is a smoother

@@ -411,7 +411,7 @@ pub fn judge_explained(
             if reading.affine.alpha.is_zero() {
                 return Err("the state's weight is exactly one (an integrator)");
             }
-            forms::ema::reject(&reading).ok_or("the weight shrinks with a counter")?;
+            forms::ema::reject(&reading)?;
             forms::scaled_state::judge(&reading)
                 .or_else(|| forms::ema::judge(&reading))
                 .ok_or("weights that do not make a low-pass")?

@@ -557,6 +557,34 @@ impl Graph {
         false
     }
 
+    /// Like `any_within`, without looking inside `avoid` (nor a stored copy of it).
+    pub fn any_within_avoiding(
+        &self,
+        from: V,
+        hit: &dyn Fn(V) -> bool,
+        avoid: V,
+        limit: usize,
+    ) -> bool {
+        let mut seen = std::collections::HashSet::new();
+        let mut stack = vec![from];
+        while let Some(v) = stack.pop() {
+            if v == avoid
+                || matches!(self.node(v), Node::Stored { value, .. } if *value == avoid)
+                || !seen.insert(v)
+            {
+                continue;
+            }
+            if hit(v) {
+                return true;
+            }
+            if seen.len() > limit {
+                return false;
+            }
+            stack.extend(self.children(v));
+        }
+        false
+    }
+
     /// Copies `root` of `other` into this graph, replacing the nodes of `substitute` (keyed
     /// by `other`'s values) on the way, through the normalising constructors (so an
     /// argument `&x` for a parameter `p` makes `p->f` read `x.f`). `homes` maps the homes

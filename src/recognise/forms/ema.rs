@@ -11,13 +11,13 @@
 //! independent gain, a rotation), not a smoother.
 
 use super::super::judge::Reading;
-use super::super::values::Node;
+use super::super::values::{Node, V};
 use super::super::Form;
 use super::Verdict;
 use crate::context;
 
-/// None when the reading is a recursion that is never a smoother, whatever its numbers.
-pub fn reject(r: &Reading) -> Option<()> {
+/// Why the reading is a recursion that is never a smoother, whatever its numbers.
+pub fn reject(r: &Reading) -> Result<(), &'static str> {
     let g = r.g();
     let file = r.walk.graph.home_info(r.walk.home).file;
     // A weight that shrinks with a sample counter makes a cumulative mean, not a smoother
@@ -47,11 +47,9 @@ pub fn reject(r: &Reading) -> Option<()> {
         })
     });
     if counter {
-        return None;
+        return Err("the weight shrinks with a counter (a cumulative mean)");
     }
-    // A coefficient that reads what another update of the same body writes is part of a
-    // coupled recursion (a Kalman gain from a covariance updated each step, a projection
-    // whose ratio comes from the other coordinates being moved), not a smoother's constant.
+    // The places the other updates of this body write.
     let others: Vec<_> = r
         .walk
         .candidates
@@ -62,6 +60,38 @@ pub fn reject(r: &Reading) -> Option<()> {
         .map(|c| c.place)
         .collect();
     if !others.is_empty() {
+        // An input that another update of this body writes, where that update reads this
+        // state's value from before this update: the pair is one second-order recursion
+        // (a rotation, an oscillator, a tracker of position and speed), not a smoother of
+        // an input. (A copy of the new value out to the input's place is no such pair.)
+        let me = r.candidate.place;
+        let reads = |v: V, place: V| g.any_within(v, &|x| g.place_of(x) == place, 2000);
+        let reads_old_me = |v: V| {
+            g.any_within_avoiding(
+                v,
+                &|x| g.place_of(x) == me && !matches!(g.node(x), Node::Stored { .. }),
+                r.candidate.value,
+                2000,
+            )
+        };
+        let paired = r.walk.candidates.iter().any(|c| {
+            c.place != me
+                && matches!(c.kind, super::super::walk::StateKind::Place)
+                && r.affine.inputs.iter().any(|(a, _)| {
+                    r.affine
+                        .values_of(*a)
+                        .into_iter()
+                        .any(|v| reads(v, c.place))
+                })
+                && reads_old_me(c.value)
+        });
+        if paired {
+            return Err("its input is updated from its own state (a coupled pair)");
+        }
+        // A coefficient that reads what another update of the same body writes is part of
+        // a coupled recursion (a Kalman gain from a covariance updated each step, a
+        // projection whose ratio comes from the other coordinates being moved), not a
+        // smoother's constant.
         let coupled = r.weight_atoms().iter().any(|&a| {
             r.affine
                 .values_of(a)
@@ -69,10 +99,10 @@ pub fn reject(r: &Reading) -> Option<()> {
                 .any(|v| g.any_within(v, &|x| others.contains(&g.place_of(x)), 2000))
         });
         if coupled {
-            return None;
+            return Err("its coefficient reads another update of the same body");
         }
     }
-    Some(())
+    Ok(())
 }
 
 pub fn judge(r: &Reading) -> Option<Verdict> {
