@@ -618,6 +618,14 @@ fn signal_node(g: &Graph, value: V, carries: &HashSet<V>) -> Option<V> {
         {
             Some(*a)
         }
+        // `c * k * expr` groups as `(c * k) * expr`: no written node is the signal without
+        // the coefficient, so the signal is printed from its terms.
+        Node::Binary(BinaryOp::Mul, a, _)
+            if matches!(g.node(*a), Node::Binary(BinaryOp::Mul, x, _)
+                if matches!(g.node(*x), Node::Int { .. } | Node::Float { .. })) =>
+        {
+            None
+        }
         _ => Some(*one),
     }
 }

@@ -596,6 +596,20 @@ mod tests {
     }
 
     #[test]
+    fn a_composite_input_is_named_without_its_coefficient() {
+        for (body, input) in [
+            ("y = 0.95f*y + 0.05f*(a - b);", "a - b"),
+            ("y = 0.95f*y + 0.05f*K*(a - b);", "K * a - K * b"),
+        ] {
+            let src =
+                format!("#define K 0.5f\nstatic float y;\nvoid f(float a, float b) {{ {body} }}\n");
+            let found = find(&src);
+            assert_eq!(found.len(), 1, "{body}");
+            assert_eq!(found[0].inputs, vec![input.to_string()], "{body}");
+        }
+    }
+
+    #[test]
     fn named_coefficient_is_resolved_with_its_chain() {
         let src = "#define K 0.125f\nstatic float y;\nvoid f(float u) { y += K * (u - y); }\n";
         let found = find(src);
