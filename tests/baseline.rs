@@ -10,6 +10,8 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn copy_demo() -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
     let from = Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures/demo-greenhouse");
@@ -21,11 +23,11 @@ fn copy_demo() -> tempfile::TempDir {
 }
 
 fn run(args: &[&str], dir: &Path) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(args)
-        .arg(dir)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(args)
+            .arg(dir),
+    );
     (
         out.status.code().unwrap(),
         String::from_utf8_lossy(&out.stdout).into_owned(),

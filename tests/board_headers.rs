@@ -101,7 +101,7 @@ fn executed_alpha(fixture: &str, board: &Board) -> f64 {
         board.file,
         String::from_utf8_lossy(&out.stderr)
     );
-    let run = Command::new(&exe).output().unwrap();
+    let run = common::output(&mut Command::new(&exe));
     assert!(run.status.success());
     let y1: f64 = String::from_utf8_lossy(&run.stdout).trim().parse().unwrap();
     y1 / 1000.0

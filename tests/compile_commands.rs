@@ -11,13 +11,15 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn alpha(args: &[&str]) -> f64 {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--format", "json"])
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--format", "json"])
+            .args(args)
+            .current_dir(env!("CARGO_MANIFEST_DIR")),
+    );
     assert_eq!(
         out.status.code(),
         Some(0),
@@ -56,7 +58,7 @@ fn executed_alpha(flags: &[&str]) -> f64 {
         .status()
         .expect("a C compiler (cc) is needed for the execution checks");
     assert!(status.success());
-    let out = Command::new(&exe).output().unwrap();
+    let out = common::output(&mut Command::new(&exe));
     let y1: f64 = String::from_utf8_lossy(&out.stdout).trim().parse().unwrap();
     y1 / 32000.0
 }
@@ -80,11 +82,11 @@ fn a_broken_database_is_a_tool_error() {
     let dir = tempfile::tempdir().unwrap();
     let db = dir.path().join("compile_commands.json");
     std::fs::write(&db, "{\"not\": \"a list\"}").unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--compile-commands"])
-        .arg(&db)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--compile-commands"])
+            .arg(&db),
+    );
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("not a JSON compilation database"));
 }

@@ -18,6 +18,8 @@ use serde_json::Value;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 fn decoy_dir() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("fixtures")
@@ -36,11 +38,11 @@ fn decoy_files() -> Vec<PathBuf> {
 
 #[test]
 fn no_decoy_is_reported_as_a_smoother() {
-    let output = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--format", "json", "fixtures/decoys"])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--format", "json", "fixtures/decoys"])
+            .current_dir(env!("CARGO_MANIFEST_DIR")),
+    );
     let stderr = String::from_utf8_lossy(&output.stderr);
     // 0 is clean and 1 means findings; anything else is a tool failure, never a pass.
     let code = output.status.code();

@@ -11,6 +11,8 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn copy_tree(from: &Path, to: &Path) {
     std::fs::create_dir_all(to).unwrap();
     for entry in std::fs::read_dir(from).unwrap() {
@@ -20,16 +22,16 @@ fn copy_tree(from: &Path, to: &Path) {
 }
 
 fn check(dir: &Path) -> (i32, serde_json::Value, String) {
-    let json = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json"])
-        .arg(dir)
-        .output()
-        .unwrap();
-    let text = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("check")
-        .arg(dir)
-        .output()
-        .unwrap();
+    let json = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json"])
+            .arg(dir),
+    );
+    let text = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("check")
+            .arg(dir),
+    );
     let doc: serde_json::Value = serde_json::from_slice(&json.stdout).unwrap();
     (
         json.status.code().unwrap_or(-1),
@@ -128,11 +130,11 @@ fn a_broken_spec_stops_the_gate_with_its_place() {
         "max_dead_band:",
         "max_dead_bnd:",
     );
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("check")
-        .arg(&demo)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("check")
+            .arg(&demo),
+    );
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("tauscan.yaml:16:"), "{err}");
@@ -148,11 +150,11 @@ fn a_starter_spec_from_init_passes_the_code_it_was_written_from() {
         &demo,
     );
     std::fs::remove_file(demo.join("tauscan.yaml")).unwrap();
-    let init = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("init")
-        .arg(&demo)
-        .output()
-        .unwrap();
+    let init = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("init")
+            .arg(&demo),
+    );
     assert_eq!(
         init.status.code(),
         Some(0),
@@ -165,11 +167,11 @@ fn a_starter_spec_from_init_passes_the_code_it_was_written_from() {
     assert_eq!(rules_of(&doc), Vec::<String>::new(), "{text}");
     assert_eq!(status, 0);
     // A second init does not overwrite without --force.
-    let again = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("init")
-        .arg(&demo)
-        .output()
-        .unwrap();
+    let again = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("init")
+            .arg(&demo),
+    );
     assert_eq!(again.status.code(), Some(2));
     // Tightening one requirement makes the gate fail: the spec really holds the code.
     edit(

@@ -11,6 +11,8 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn git(dir: &Path, args: &[&str]) {
     let out = Command::new("git")
         .arg("-C")
@@ -58,12 +60,12 @@ fn repo() -> tempfile::TempDir {
 }
 
 fn diff(dir: &Path, args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("diff")
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("diff")
+            .args(args)
+            .current_dir(dir),
+    );
     (
         out.status.code().unwrap(),
         String::from_utf8_lossy(&out.stdout).into_owned(),

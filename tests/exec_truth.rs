@@ -27,6 +27,8 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
+mod common;
+
 /// What one driven case did when it ran, as printed by `drive_main.c`.
 #[derive(Debug, Clone)]
 struct Executed {
@@ -92,11 +94,11 @@ fn cases_in(dir: &Path, suffix: &str) -> Vec<String> {
 
 /// Runs `tauscan list --format json <dir>` from the crate root and returns its smoothers.
 fn reported_smoothers(dir: &str) -> Vec<Value> {
-    let output = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--format", "json", dir])
-        .current_dir(crate_root())
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--format", "json", dir])
+            .current_dir(crate_root()),
+    );
     let stderr = String::from_utf8_lossy(&output.stderr);
     // Exit status 0 is clean and 1 means findings; 2 or a signal is a tool failure, which
     // must never pass for a result.
@@ -160,7 +162,7 @@ fn execute_all_drivers() -> Vec<Executed> {
             "{case}.drive.c does not compile:\n{}",
             String::from_utf8_lossy(&compile.stderr)
         );
-        let run = Command::new(&binary).output().unwrap();
+        let run = common::output(&mut Command::new(&binary));
         let stdout = String::from_utf8_lossy(&run.stdout);
         assert!(
             run.status.success(),

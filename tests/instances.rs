@@ -16,17 +16,19 @@ use serde_json::Value;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 fn crate_root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
 /// The records tauscan gives for one fixture of `fixtures/forms`.
 fn records_of(fixture: &str) -> Vec<Value> {
-    let output = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--format", "json", "fixtures/forms"])
-        .current_dir(crate_root())
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--format", "json", "fixtures/forms"])
+            .current_dir(crate_root()),
+    );
     assert!(
         matches!(output.status.code(), Some(0 | 1)),
         "tauscan exited with {:?}: {}",

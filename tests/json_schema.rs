@@ -13,12 +13,14 @@ use serde::Deserialize;
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn list_json(path: &str) -> serde_json::Value {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["list", "--format", "json", path])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("tauscan runs");
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["list", "--format", "json", path])
+            .current_dir(env!("CARGO_MANIFEST_DIR")),
+    );
     assert_eq!(
         out.status.code(),
         Some(0),
@@ -57,11 +59,11 @@ fn every_fixture_tree_validates_against_the_documented_schema() {
 #[test]
 fn check_output_with_findings_validates_too() {
     let validator = schema();
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json", "fixtures/demo-greenhouse"])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("tauscan runs");
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json", "fixtures/demo-greenhouse"])
+            .current_dir(env!("CARGO_MANIFEST_DIR")),
+    );
     let doc: serde_json::Value = serde_json::from_slice(&out.stdout).expect("stdout is JSON");
     assert!(!doc["findings"].as_array().unwrap().is_empty());
     let errors: Vec<String> = validator

@@ -18,6 +18,8 @@ use serde_json::Value;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 fn fixture(name: &str) -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("fixtures")
@@ -28,11 +30,11 @@ fn fixture(name: &str) -> PathBuf {
 /// `tauscan check --format json` on a fixture: exit status and the JSON document.
 fn check(name: &str) -> (Option<i32>, Value) {
     let dir = fixture(name);
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json"])
-        .arg(&dir)
-        .output()
-        .expect("tauscan could not be started");
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json"])
+            .arg(&dir),
+    );
     let stderr = String::from_utf8_lossy(&out.stderr);
     let json: Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
         panic!(

@@ -26,6 +26,8 @@ use tauscan::figures::SmootherFigures;
 use tauscan::metrics::{Figures, Stage, FRACTION_63};
 use tauscan::report::plot;
 
+mod common;
+
 fn fixture(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("fixtures")
@@ -34,11 +36,11 @@ fn fixture(name: &str) -> PathBuf {
 
 /// Runs the binary with a fixed document date.
 fn tauscan(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(args)
-        .env("SOURCE_DATE_EPOCH", "1700000000")
-        .output()
-        .unwrap()
+    common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(args)
+            .env("SOURCE_DATE_EPOCH", "1700000000"),
+    )
 }
 
 /// Writes the document of `dir` to `out` and returns its text.

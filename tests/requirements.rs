@@ -19,6 +19,8 @@ use serde_json::Value;
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 /// A grain dryer: the plenum air temperature in float, the grain moisture in integer
 /// counts with a shift, both run from the 50 Hz dryer tick.
 const DRYER_C: &str = r#"/* Grain dryer: plenum air and grain moisture, smoothed in the 50 Hz tick. */
@@ -51,10 +53,7 @@ const MOISTURE: &str = "dryer.c::dryer_moisture_sample::moisture_counts";
 const MARGIN: f64 = 0.005;
 
 fn tauscan(args: &[&str]) -> (Option<i32>, Value, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(args)
-        .output()
-        .expect("tauscan could not be started");
+    let out = common::output(Command::new(env!("CARGO_BIN_EXE_tauscan")).args(args));
     let stderr = String::from_utf8_lossy(&out.stderr).into_owned();
     let json = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
         panic!(

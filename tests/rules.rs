@@ -26,6 +26,8 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
+mod common;
+
 /// The headings every rule document carries, in this order.
 const HEADINGS: &[&str] = &[
     "## What it finds",
@@ -51,11 +53,11 @@ fn manifest_dir() -> PathBuf {
 }
 
 fn tauscan(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(args)
-        .current_dir(manifest_dir())
-        .output()
-        .expect("tauscan could not be started")
+    common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(args)
+            .current_dir(manifest_dir()),
+    )
 }
 
 /// The registry as the binary prints it: `id severity summary` per line.

@@ -20,6 +20,8 @@ use std::collections::BTreeMap;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 fn crate_root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
@@ -108,7 +110,7 @@ fn drive(rule: &str, twin: &str, sanitize: bool) -> Driven {
         "{rule}.drive.c does not compile against {twin}/:\n{}",
         String::from_utf8_lossy(&compiled.stderr)
     );
-    let run = Command::new(&binary).output().unwrap();
+    let run = common::output(&mut Command::new(&binary));
     let stdout = String::from_utf8_lossy(&run.stdout).into_owned();
     let mut driven = Driven {
         lines: BTreeMap::new(),
@@ -152,13 +154,13 @@ fn drive(rule: &str, twin: &str, sanitize: bool) -> Driven {
 /// Runs `tauscan check --format json` on a fixture folder and returns every finding.
 fn findings(rule: &str, twin: &str, extra: &[&str]) -> Vec<Value> {
     let dir = format!("fixtures/rules/{rule}/{twin}");
-    let output = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json"])
-        .args(extra)
-        .arg(&dir)
-        .current_dir(crate_root())
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json"])
+            .args(extra)
+            .arg(&dir)
+            .current_dir(crate_root()),
+    );
     let stderr = String::from_utf8_lossy(&output.stderr);
     // 0 is clean and 1 means findings; 2 or a signal is a tool failure, never a result.
     assert!(

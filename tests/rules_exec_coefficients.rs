@@ -25,6 +25,8 @@ use std::collections::BTreeMap;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 fn crate_root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
@@ -82,7 +84,7 @@ fn execute(rule: &str, twin: &str) -> Executed {
         "{label}: the driver does not compile:\n{}",
         String::from_utf8_lossy(&compile.stderr)
     );
-    let run = Command::new(&binary).output().unwrap();
+    let run = common::output(&mut Command::new(&binary));
     let stdout = String::from_utf8_lossy(&run.stdout).into_owned();
     assert!(
         run.status.success(),
@@ -113,11 +115,11 @@ struct Checked {
 
 fn tauscan_check(rule: &str, twin: &str) -> Checked {
     let dir = format!("fixtures/rules/{rule}/{twin}");
-    let output = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json", &dir])
-        .current_dir(crate_root())
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json", &dir])
+            .current_dir(crate_root()),
+    );
     let stderr = String::from_utf8_lossy(&output.stderr);
     // 0 is clean and 1 means findings; 2 or a signal is a tool failure.
     let code = output.status.code();

@@ -11,6 +11,8 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
+mod common;
+
 struct Case {
     dir: &'static str,
     file: &'static str,
@@ -100,18 +102,18 @@ int main(void) {{
         .status()
         .expect("a C compiler (cc) is needed for the execution checks");
     assert!(status.success(), "{}", case.dir);
-    let out = Command::new(&exe).output().unwrap();
+    let out = common::output(&mut Command::new(&exe));
     let text = String::from_utf8_lossy(&out.stdout);
     let mut parts = text.split_whitespace().map(|x| x.parse::<i64>().unwrap());
     (parts.next().unwrap(), parts.next().unwrap())
 }
 
 fn reported(case: &Case) -> (Option<(i64, i64)>, Vec<String>) {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json"])
-        .arg(fixtures().join(case.dir))
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json"])
+            .arg(fixtures().join(case.dir)),
+    );
     let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let s = &doc["smoothers"][0];
     let stall = s["stall"].as_object().map(|o| {

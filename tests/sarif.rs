@@ -12,12 +12,14 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 fn sarif(dir: &Path) -> serde_json::Value {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "sarif"])
-        .arg(dir)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "sarif"])
+            .arg(dir),
+    );
     assert!(
         matches!(out.status.code(), Some(0) | Some(1)),
         "{}",
@@ -98,10 +100,8 @@ fn every_rule_is_described_and_results_are_relative_to_the_root() {
     let demo = copy_demo();
     let log = sarif(demo.path());
     let run = &log["runs"][0];
-    let listed = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["explain", "--list"])
-        .output()
-        .unwrap();
+    let listed =
+        common::output(Command::new(env!("CARGO_BIN_EXE_tauscan")).args(["explain", "--list"]));
     let ids: Vec<String> = String::from_utf8_lossy(&listed.stdout)
         .lines()
         .filter_map(|l| l.split_whitespace().next().map(str::to_string))

@@ -16,6 +16,8 @@
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 struct Broken {
     status: Option<i32>,
     stderr: String,
@@ -30,13 +32,13 @@ fn check_with_spec(text: &str) -> Broken {
     std::fs::write(dir.path().join("idle.c"), "void idle(void) {}\n").unwrap();
     let spec = dir.path().join("broken.yaml");
     std::fs::write(&spec, text).unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("check")
-        .arg("--spec")
-        .arg(&spec)
-        .arg(dir.path())
-        .output()
-        .expect("tauscan could not be started");
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("check")
+            .arg("--spec")
+            .arg(&spec)
+            .arg(dir.path()),
+    );
     Broken {
         status: out.status.code(),
         stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
@@ -260,11 +262,11 @@ fn a_spec_found_by_itself_is_named_in_the_error_too() {
         "smoothers:\n  - match: { function: idle }\n    requires:\n      max_lagg: \"5 ms\"\n",
     )
     .unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .arg("check")
-        .arg(dir.path())
-        .output()
-        .expect("tauscan could not be started");
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .arg("check")
+            .arg(dir.path()),
+    );
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("tauscan.yaml:4:7:"), "{stderr}");

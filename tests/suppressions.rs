@@ -10,12 +10,14 @@
 
 use std::process::Command;
 
+mod common;
+
 fn check(dir: &std::path::Path) -> (i32, serde_json::Value) {
-    let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-        .args(["check", "--format", "json", "--fail-on", "warning"])
-        .arg(dir)
-        .output()
-        .unwrap();
+    let out = common::output(
+        Command::new(env!("CARGO_BIN_EXE_tauscan"))
+            .args(["check", "--format", "json", "--fail-on", "warning"])
+            .arg(dir),
+    );
     (
         out.status.code().unwrap(),
         serde_json::from_slice(&out.stdout).unwrap(),
@@ -108,11 +110,11 @@ fn the_spec_turns_rules_off_and_changes_their_severity() {
     );
     let run = |spec: &str| {
         write(dir.path(), "tauscan.yaml", spec);
-        let out = Command::new(env!("CARGO_BIN_EXE_tauscan"))
-            .args(["check", "--format", "json"])
-            .arg(dir.path())
-            .output()
-            .unwrap();
+        let out = common::output(
+            Command::new(env!("CARGO_BIN_EXE_tauscan"))
+                .args(["check", "--format", "json"])
+                .arg(dir.path()),
+        );
         let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
         (
             out.status.code().unwrap(),

@@ -18,6 +18,8 @@ use serde_json::Value;
 use std::path::PathBuf;
 use std::process::Command;
 
+mod common;
+
 const OPTION: &str = "FERMENTER_FAST_PH";
 
 /// The smoothers of the fixture, with the macro whose branches choose each coefficient.
@@ -68,7 +70,7 @@ fn execute(defined: bool) -> Vec<(String, String, Executed)> {
         "variants.drive.c does not compile (defined: {defined}):\n{}",
         String::from_utf8_lossy(&compile.stderr)
     );
-    let run = Command::new(&binary).output().unwrap();
+    let run = common::output(&mut Command::new(&binary));
     assert!(run.status.success(), "the variants driver failed: {run:?}");
     String::from_utf8_lossy(&run.stdout)
         .lines()
@@ -96,11 +98,11 @@ fn scan(defined: bool) -> Vec<Value> {
     if defined {
         command.args(["-D", OPTION]);
     }
-    let output = command
-        .arg("fixtures/forms/variants.c")
-        .current_dir(crate_root())
-        .output()
-        .expect("tauscan could not be started");
+    let output = common::output(
+        command
+            .arg("fixtures/forms/variants.c")
+            .current_dir(crate_root()),
+    );
     assert!(
         matches!(output.status.code(), Some(0 | 1)),
         "tauscan exited with {:?}: {}",

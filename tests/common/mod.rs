@@ -98,6 +98,47 @@ pub fn tauscan_command(mut command: Command, dir: &Path, args: &[&str], limit: D
     }
 }
 
+/// `Command::output` with a time limit, for suites that drive the binary themselves: the
+/// child is killed past `LIMIT` and the test fails, so a hang costs two minutes, not CI's
+/// whole run.
+pub fn output(command: &mut Command) -> std::process::Output {
+    let mut child = command
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("the command could not be started");
+    let mut out_pipe = child.stdout.take().unwrap();
+    let mut err_pipe = child.stderr.take().unwrap();
+    let out_reader = std::thread::spawn(move || {
+        let mut buffer = Vec::new();
+        let _ = out_pipe.read_to_end(&mut buffer);
+        buffer
+    });
+    let err_reader = std::thread::spawn(move || {
+        let mut buffer = Vec::new();
+        let _ = err_pipe.read_to_end(&mut buffer);
+        buffer
+    });
+    let start = Instant::now();
+    let status = loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            break status;
+        }
+        if start.elapsed() > LIMIT {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("{command:?} did not finish within {LIMIT:?}");
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    };
+    std::process::Output {
+        status,
+        stdout: out_reader.join().unwrap(),
+        stderr: err_reader.join().unwrap(),
+    }
+}
+
 /// Text safe to print in a failure message: control characters other than newlines are
 /// shown escaped, so that a failing test cannot drive the terminal either.
 pub fn shown(text: &str) -> String {
