@@ -458,6 +458,308 @@ fn blank_computed_includes(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
     }
 }
 
+/// The offsets of each `(name)` followed by a `+`, `-` or `&` that is not part of `++`,
+/// `--`, `->`, `&&` or an assignment: the only spelling `variable_casts_variant` changes.
+fn variable_cast_openings(source: &[u8]) -> Vec<usize> {
+    let n = source.len();
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i < n {
+        if source[i] != b'(' {
+            i += 1;
+            continue;
+        }
+        let mut j = i + 1;
+        while j < n && (source[j].is_ascii_alphanumeric() || source[j] == b'_') {
+            j += 1;
+        }
+        if j > i + 1 && j < n && source[j] == b')' && !source[i + 1].is_ascii_digit() {
+            let mut k = j + 1;
+            while k < n && (source[k] == b' ' || source[k] == b'\t') {
+                k += 1;
+            }
+            if k + 1 < n
+                && matches!(source[k], b'+' | b'-' | b'&')
+                && !matches!(source[k + 1], b'+' | b'-' | b'>' | b'&' | b'=')
+            {
+                out.push(i);
+            }
+        }
+        i = j.max(i + 1);
+    }
+    out
+}
+
+/// The identifier a declarator declares (`x` in `*x[4] = ...`).
+fn declared_identifier(node: Node) -> Option<Node> {
+    let mut node = node;
+    for _ in 0..32 {
+        match node.kind() {
+            "identifier" | "type_identifier" | "field_identifier" => return Some(node),
+            _ => node = field_child(node, field::DECLARATOR)?,
+        }
+    }
+    None
+}
+
+/// The file with the parentheses of each `(name) + x`, `(name) - x`, `(name) & x` that the
+/// grammar read as a cast blanked, where `name` is declared in this file as a variable, a
+/// parameter or an object-like macro and not as a type; and its tree. None when there is
+/// no such cast.
+fn variable_casts_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)> {
+    let text = |n: Node| source.get(n.start_byte()..n.end_byte()).unwrap_or(&[]);
+    // The casts of that shape, found from the text's candidates (most files have none).
+    let casts: Vec<Node> = variable_cast_openings(source)
+        .into_iter()
+        .filter_map(|at| {
+            let open = tree.root_node().descendant_for_byte_range(at, at + 1)?;
+            let cast = open.parent().filter(|p| p.kind() == "cast_expression")?;
+            if cast.start_byte() != at {
+                return None;
+            }
+            let ty = field_child(cast, field::TYPE)?;
+            let lone_name = ty.named_child_count() == 1
+                && ty
+                    .named_child(0)
+                    .is_some_and(|c| c.kind() == "type_identifier");
+            let value = field_child(cast, field::VALUE)?;
+            let signed = matches!(value.kind(), "unary_expression" | "pointer_expression")
+                && field_child(value, field::OPERATOR)
+                    .is_some_and(|o| matches!(text(o), b"+" | b"-" | b"&"));
+            (lone_name && signed).then_some(cast)
+        })
+        .collect();
+    if casts.is_empty() {
+        return None;
+    }
+    let mut variables: std::collections::HashSet<&[u8]> = std::collections::HashSet::new();
+    let mut types: std::collections::HashSet<&[u8]> = std::collections::HashSet::new();
+    let mut stack = vec![tree.root_node()];
+    let mut visited = 0usize;
+    while let Some(node) = stack.pop() {
+        visited += 1;
+        if visited > 4_000_000 {
+            return None;
+        }
+        match node.kind() {
+            "init_declarator" | "parameter_declaration" | "declaration" | "field_declaration" => {
+                let mut cursor = node.walk();
+                for d in node.children_by_field_name("declarator", &mut cursor) {
+                    if let Some(name) = declared_identifier(d) {
+                        variables.insert(text(name));
+                    }
+                }
+            }
+            kind::PREPROC_DEF => {
+                if let Some(name) = field_child(node, field::NAME) {
+                    variables.insert(text(name));
+                }
+            }
+            kind::TYPE_DEFINITION => {
+                let mut cursor = node.walk();
+                for d in node.children_by_field_name("declarator", &mut cursor) {
+                    if let Some(name) = declared_identifier(d) {
+                        types.insert(text(name));
+                    }
+                }
+            }
+            _ => {}
+        }
+        // Expressions hold no declarations.
+        if !node.kind().ends_with("_expression") {
+            let mut cursor = node.walk();
+            stack.extend(node.named_children(&mut cursor));
+        }
+    }
+    let mut out: Option<Vec<u8>> = None;
+    for cast in casts {
+        let Some(name) = field_child(cast, field::TYPE).and_then(|t| t.named_child(0)) else {
+            continue;
+        };
+        let name_text = text(name);
+        if !variables.contains(name_text) || types.contains(name_text) {
+            continue;
+        }
+        // The cast's own parentheses: the first child `(` and the `)` after the type.
+        let Some(open) = cast.child(0).filter(|c| c.kind() == "(") else {
+            continue;
+        };
+        let Some(close) = cast.child(2).filter(|c| c.kind() == ")") else {
+            continue;
+        };
+        let buffer = out.get_or_insert_with(|| source.to_vec());
+        buffer[open.start_byte()] = b' ';
+        buffer[close.start_byte()] = b' ';
+    }
+    let out = out?;
+    let tree = parse_tree(&out)?;
+    Some((out, tree))
+}
+
+/// The number of error and missing nodes in a tree (subtrees without errors are skipped).
+fn error_count(tree: &Tree) -> usize {
+    let mut count = 0;
+    let mut stack = vec![tree.root_node()];
+    while let Some(node) = stack.pop() {
+        if node.is_error() || node.is_missing() {
+            count += 1;
+            continue;
+        }
+        if !node.has_error() {
+            continue;
+        }
+        let mut cursor = node.walk();
+        stack.extend(node.children(&mut cursor));
+    }
+    count
+}
+
+/// The file with each function body that holds a parse error read through the first
+/// branch of each of its preprocessor conditionals (the directives and the other branches
+/// blanked, every line kept), and its tree, when that has fewer errors than `tree`.
+fn first_branches_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)> {
+    let errors: Vec<usize> = {
+        let mut out = Vec::new();
+        let mut stack = vec![tree.root_node()];
+        while let Some(node) = stack.pop() {
+            if out.len() > 4096 {
+                break;
+            }
+            if node.is_error() || node.is_missing() {
+                out.push(node.start_byte());
+                continue;
+            }
+            if node.has_error() {
+                let mut cursor = node.walk();
+                stack.extend(node.children(&mut cursor));
+            }
+        }
+        out
+    };
+    let regions: Vec<std::ops::Range<usize>> = function_regions(source)
+        .into_iter()
+        .map(|(r, _)| r)
+        .filter(|r| errors.iter().any(|e| r.contains(e)))
+        .collect();
+    let mut out = source.to_vec();
+    let mut changed = false;
+    for r in &regions {
+        changed |= keep_first_branches(&mut out, r.clone());
+    }
+    if !changed {
+        return None;
+    }
+    let variant = parse_tree(&out)?;
+    (error_count(&variant) < error_count(tree)).then_some((out, variant))
+}
+
+/// Blanks, inside `range`, each outermost conditional group that splits a statement (a
+/// branch that opens more braces than it closes or the reverse, or a line of it that
+/// starts or ends with `else`): its directives and every branch but the first (nested
+/// groups inside a kept branch likewise). Groups that hold whole statements are left to
+/// the grammar, which reads them. Whether anything was blanked.
+fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
+    // The lines of the range: (start, end, directive word).
+    let end = range.end.min(out.len());
+    let mut lines: Vec<(usize, usize, Option<Vec<u8>>)> = Vec::new();
+    let mut i = range.start;
+    while i < end && lines.len() < 100_000 {
+        let mut k = i;
+        while k < end && !(out[k] == b'\n' && (k == 0 || out[k - 1] != b'\\')) {
+            k += 1;
+        }
+        let text = trim_blank(&out[i..k]);
+        let directive = (text.first() == Some(&b'#')).then(|| {
+            let rest = trim_blank(&text[1..]);
+            let word_len = rest
+                .iter()
+                .position(|b| !b.is_ascii_alphabetic())
+                .unwrap_or(rest.len());
+            rest[..word_len].to_vec()
+        });
+        lines.push((i, k, directive));
+        i = k + 1;
+    }
+    // Outermost groups: (first line, last line, splits).
+    let mut groups: Vec<(usize, usize, bool)> = Vec::new();
+    let mut depth = 0usize;
+    let mut start = 0usize;
+    let mut splits = false;
+    let mut delta = 0i64;
+    for (n, (a, b, directive)) in lines.iter().enumerate() {
+        match directive.as_deref() {
+            Some(b"if" | b"ifdef" | b"ifndef") => {
+                if depth == 0 {
+                    start = n;
+                    splits = false;
+                    delta = 0;
+                }
+                depth += 1;
+            }
+            Some(b"elif" | b"else") if depth > 0 => {
+                splits |= delta != 0;
+                delta = 0;
+            }
+            Some(b"endif") if depth > 0 => {
+                depth -= 1;
+                if depth == 0 {
+                    splits |= delta != 0;
+                    groups.push((start, n, splits));
+                }
+            }
+            _ if depth > 0 => {
+                let text = trim_blank(&out[*a..*b]).trim_ascii_end();
+                for c in text {
+                    match c {
+                        b'{' => delta += 1,
+                        b'}' => delta -= 1,
+                        _ => {}
+                    }
+                }
+                splits |= text.starts_with(b"else") || text.ends_with(b"else");
+            }
+            _ => {}
+        }
+    }
+    let mut changed = false;
+    for (first, last, splits) in groups {
+        if !splits {
+            continue;
+        }
+        // Per open group: whether the branch being read is kept.
+        let mut keep: Vec<bool> = Vec::new();
+        for (a, b, directive) in &lines[first..=last] {
+            let kept = keep.iter().all(|k| *k);
+            let blank = match directive.as_deref() {
+                Some(b"if" | b"ifdef" | b"ifndef") => {
+                    keep.push(true);
+                    true
+                }
+                Some(b"elif" | b"else") => {
+                    if let Some(k) = keep.last_mut() {
+                        *k = false;
+                    }
+                    true
+                }
+                Some(b"endif") => {
+                    keep.pop();
+                    true
+                }
+                _ => !kept,
+            };
+            if blank {
+                for byte in &mut out[*a..*b] {
+                    if *byte != b'\n' {
+                        *byte = b' ';
+                    }
+                }
+                changed = true;
+            }
+        }
+    }
+    changed
+}
+
 /// Ends with a `;` each line of a function body that is only a macro's name or call
 /// (`SMOOTH_FLOW`, `ENTER_CRITICAL()`) with no semicolon, where the macro supplies its own
 /// or is a statement prefix: the grammar otherwise reads it as the type of the next
@@ -652,8 +954,7 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
     let without_comments = blank_directive_comments(source);
     let without_includes = blank_computed_includes(&without_comments);
     let terminated = terminate_bare_macro_lines(&without_includes);
-    let source: &[u8] = &terminated;
-    let Some(tree) = parse_tree(source) else {
+    let Some(first_tree) = parse_tree(&terminated) else {
         ir.problems.push(ParseProblem {
             span: Span {
                 file,
@@ -664,6 +965,26 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
             message: "the C parser gave no tree for this file".into(),
         });
         return ir;
+    };
+    // Conditionals that split a statement (`} else` / `#endif` / `{`, an `if (x) {` in each
+    // branch) break the grammar; such function bodies are read with the first branch of
+    // each of their conditionals, when that reads better.
+    let reread = if first_tree.root_node().has_error() {
+        first_branches_variant(&terminated, &first_tree)
+    } else {
+        None
+    };
+    let (source, tree): (&[u8], Tree) = match &reread {
+        Some((bytes, tree)) => (bytes, tree.clone()),
+        None => (&terminated, first_tree),
+    };
+    // `u*(alpha) + y*(1 - alpha)`: the grammar reads `(alpha) + y` as a cast of `+y`, which
+    // regroups the whole sum; where `alpha` is a variable or macro of this file, the
+    // parentheses are dropped and the file read again.
+    let uncast = variable_casts_variant(source, &tree);
+    let (source, tree): (&[u8], Tree) = match &uncast {
+        Some((bytes, tree)) => (bytes, tree.clone()),
+        None => (source, tree),
     };
     let mut lower = Lower {
         src: source,
@@ -2107,6 +2428,47 @@ mod tests {
         );
     }
     use super::*;
+
+    /// The right-hand side of the first assignment in `f`'s body, as C text.
+    fn first_assigned(src: &str) -> String {
+        let ir = parse_file(FileId(0), src.as_bytes());
+        let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
+        let found = f.body.iter().find_map(|s| match s {
+            Stmt::Expr(Expr {
+                kind: ExprKind::Assign { value, .. },
+                ..
+            }) => Some(value.to_string()),
+            _ => None,
+        });
+        found.expect("an assignment")
+    }
+
+    #[test]
+    fn a_parenthesised_variable_before_a_sign_is_no_cast() {
+        // C11 6.5.4: `(T) -x` is a cast only when T names a type.
+        let src =
+            "float y;\nvoid f(float u) {\n    float a = 0.1f;\n    y = u*(a) + y*(1.0f - a);\n}\n";
+        assert_eq!(first_assigned(src), "u * a + y * (1.0f - a)");
+        let src =
+            "typedef int gain_t;\nint y;\nvoid f(int u) {\n    y = u*(gain_t) + y*(2 - u);\n}\n";
+        let text = first_assigned(src);
+        assert!(text.contains("(gain_t)"), "{text}");
+    }
+
+    #[test]
+    fn a_conditional_that_splits_an_if_else_is_read_through_its_first_branch() {
+        let src = "float y, z;\nvoid f(float u, int ok) {\n#ifdef HAVE_Z\n    if (ok) {\n        z = u;\n    } else\n#endif\n    {\n        y += 0.5f * (u - y);\n    }\n}\n";
+        let ir = parse_file(FileId(0), src.as_bytes());
+        assert!(ir.problems.is_empty(), "{:?}", ir.problems);
+        let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
+        assert!(matches!(
+            f.body.first(),
+            Some(Stmt::If {
+                otherwise: Some(_),
+                ..
+            })
+        ));
+    }
 
     #[test]
     fn an_integer_literal_wider_than_64_bits_has_no_value() {
