@@ -540,21 +540,7 @@ impl Graph {
     /// Whether a node reachable from `from` satisfies `hit`, looking at no more than `limit`
     /// nodes (past that: `false`, for questions where "not found" is the safe answer).
     pub fn any_within(&self, from: V, hit: &dyn Fn(V) -> bool, limit: usize) -> bool {
-        let mut seen = std::collections::HashSet::new();
-        let mut stack = vec![from];
-        while let Some(v) = stack.pop() {
-            if !seen.insert(v) {
-                continue;
-            }
-            if hit(v) {
-                return true;
-            }
-            if seen.len() > limit {
-                return false;
-            }
-            stack.extend(self.children(v));
-        }
-        false
+        self.search(from, hit, None, limit)
     }
 
     /// Like `any_within`, without looking inside `avoid` (nor a stored copy of it).
@@ -565,13 +551,17 @@ impl Graph {
         avoid: V,
         limit: usize,
     ) -> bool {
+        self.search(from, hit, Some(avoid), limit)
+    }
+
+    fn search(&self, from: V, hit: &dyn Fn(V) -> bool, avoid: Option<V>, limit: usize) -> bool {
         let mut seen = std::collections::HashSet::new();
         let mut stack = vec![from];
         while let Some(v) = stack.pop() {
-            if v == avoid
-                || matches!(self.node(v), Node::Stored { value, .. } if *value == avoid)
-                || !seen.insert(v)
-            {
+            let avoided = avoid.is_some_and(|a| {
+                v == a || matches!(self.node(v), Node::Stored { value, .. } if *value == a)
+            });
+            if avoided || !seen.insert(v) {
                 continue;
             }
             if hit(v) {

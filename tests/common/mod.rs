@@ -51,57 +51,24 @@ pub fn tauscan_in(dir: &Path, args: &[&str], limit: Duration) -> Run {
 /// Runs a prepared command (the binary, possibly behind a privilege drop) with `args`.
 pub fn tauscan_command(mut command: Command, dir: &Path, args: &[&str], limit: Duration) -> Run {
     let label = format!("tauscan {}", args.join(" "));
-    let mut child = command
-        .args(args)
-        .current_dir(dir)
-        .stdin(Stdio::null())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("tauscan could not be started");
-    // The pipes are drained on their own threads so that a large output cannot block the
-    // child while this thread waits for it.
-    let mut out_pipe = child.stdout.take().unwrap();
-    let mut err_pipe = child.stderr.take().unwrap();
-    let out_reader = std::thread::spawn(move || {
-        let mut buffer = Vec::new();
-        let _ = out_pipe.read_to_end(&mut buffer);
-        buffer
-    });
-    let err_reader = std::thread::spawn(move || {
-        let mut buffer = Vec::new();
-        let _ = err_pipe.read_to_end(&mut buffer);
-        buffer
-    });
-    let start = Instant::now();
-    let mut timed_out = false;
-    let status = loop {
-        if let Some(status) = child.try_wait().unwrap() {
-            break status;
-        }
-        if start.elapsed() > limit {
-            timed_out = true;
-            let _ = child.kill();
-            break child.wait().unwrap();
-        }
-        std::thread::sleep(Duration::from_millis(20));
-    };
-    let stdout = out_reader.join().unwrap();
-    let stderr_bytes = err_reader.join().unwrap();
+    let (status, stdout, stderr_bytes) = run_limited(command.args(args).current_dir(dir), limit);
     Run {
-        code: if timed_out { None } else { status.code() },
+        code: status.and_then(|s| s.code()),
         stderr: String::from_utf8_lossy(&stderr_bytes).into_owned(),
         stdout,
         stderr_bytes,
-        timed_out,
+        timed_out: status.is_none(),
         label,
     }
 }
 
-/// `Command::output` with a time limit, for suites that drive the binary themselves: the
-/// child is killed past `LIMIT` and the test fails, so a hang costs two minutes, not CI's
-/// whole run.
-pub fn output(command: &mut Command) -> std::process::Output {
+/// Runs a command with no input, its output drained on threads of their own (so a large
+/// output cannot block it), killed after `limit`: its status (None when killed for the
+/// limit), standard output and standard error.
+fn run_limited(
+    command: &mut Command,
+    limit: Duration,
+) -> (Option<std::process::ExitStatus>, Vec<u8>, Vec<u8>) {
     let mut child = command
         .stdin(Stdio::null())
         .stdout(Stdio::piped())
@@ -123,19 +90,34 @@ pub fn output(command: &mut Command) -> std::process::Output {
     let start = Instant::now();
     let status = loop {
         if let Some(status) = child.try_wait().unwrap() {
-            break status;
+            break Some(status);
         }
-        if start.elapsed() > LIMIT {
+        if start.elapsed() > limit {
             let _ = child.kill();
             let _ = child.wait();
-            panic!("{command:?} did not finish within {LIMIT:?}");
+            break None;
         }
         std::thread::sleep(Duration::from_millis(10));
     };
+    (
+        status,
+        out_reader.join().unwrap(),
+        err_reader.join().unwrap(),
+    )
+}
+
+/// `Command::output` with a time limit, for suites that drive the binary themselves: the
+/// child is killed past `LIMIT` and the test fails, so a hang costs two minutes, not CI's
+/// whole run.
+pub fn output(command: &mut Command) -> std::process::Output {
+    let (status, stdout, stderr) = run_limited(command, LIMIT);
+    let Some(status) = status else {
+        panic!("{command:?} did not finish within {LIMIT:?}");
+    };
     std::process::Output {
         status,
-        stdout: out_reader.join().unwrap(),
-        stderr: err_reader.join().unwrap(),
+        stdout,
+        stderr,
     }
 }
 
