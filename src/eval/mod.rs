@@ -658,10 +658,17 @@ impl<'p> Evaluator<'p> {
         let ExprKind::Ident(name) = &base.kind else {
             return None;
         };
-        let global = self
-            .program
-            .global_seen_from(name, scope.function.map(|f| f.file))?
-            .clone();
+        // A local of that name (a `static const` table in the function) comes first.
+        let local = scope
+            .function
+            .and_then(|f| find_local(self.program.function(f), name));
+        let global = match local {
+            Some(l) => l,
+            None => self
+                .program
+                .global_seen_from(name, scope.function.map(|f| f.file))?
+                .clone(),
+        };
         if !global.is_const {
             return None;
         }
@@ -1535,6 +1542,22 @@ mod tests {
     fn value(p: &Program, text: &str) -> Result<Num, Unknown> {
         let e = parse_expression(text, Span::default()).unwrap();
         Evaluator::new(p).eval(&e, &Scope::default())
+    }
+
+    #[test]
+    fn const_tables_are_read_by_element() {
+        // C11 6.7.9 par. 21: elements a list leaves out are zero.
+        let p = program(
+            "#define FIX(x) ((int)(x * 32768))\nstatic const float g[3] = {0.5f, 0.25f};\nstatic const float same[2] = {0.125f, 0.125f};\nint f(int i) {\n    static int const a[2] = {FIX(1.0) >> 1, FIX(0.5) >> 1};\n    return a[1] + i;\n}\n",
+        );
+        assert_eq!(value(&p, "g[1]").unwrap().as_f64(), 0.25);
+        assert_eq!(value(&p, "g[2]").unwrap().as_f64(), 0.0);
+        assert_eq!(value(&p, "same[k]").unwrap().as_f64(), 0.125);
+        assert!(value(&p, "g[k]").is_err());
+        let f = p.function_by_name("f").unwrap();
+        let e = parse_expression("a[1]", Span::default()).unwrap();
+        let v = Evaluator::new(&p).eval(&e, &Scope::in_function(f));
+        assert_eq!(v.unwrap().as_f64(), 8192.0);
     }
 
     #[test]

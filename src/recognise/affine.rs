@@ -63,6 +63,10 @@ pub struct Affine {
     pub offset: f64,
     /// The reading followed one side of a branch merge.
     pub through_branch: bool,
+    /// When the weights do not sum to alpha identically: the other ways of naming one
+    /// atom of each term its input, in order, for the judge to choose the one whose
+    /// weights are constants (`gb * u` names `u`, not `gb`, when `gb` is a `const`).
+    pub alternatives: Vec<Vec<(AtomId, Poly)>>,
 }
 
 impl Affine {
@@ -207,6 +211,7 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
     }
     let mut found = None;
     let mut fallback = None;
+    let mut alternatives: Vec<Vec<(AtomId, Poly)>> = Vec::new();
     for k in 0..combos {
         let mut rem = k;
         let pick: Vec<AtomId> = choices
@@ -227,6 +232,8 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
         }
         if fallback.is_none() {
             fallback = Some(inputs.clone());
+        } else if alternatives.len() < 16 {
+            alternatives.push(inputs.clone());
         }
         let sum = inputs
             .iter()
@@ -287,6 +294,9 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
         Some(i) => (i, true),
         None => (fallback?, false),
     };
+    if structural {
+        alternatives.clear();
+    }
     Some(Affine {
         atoms,
         state_atom,
@@ -295,6 +305,7 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
         structural,
         offset,
         through_branch: r.through_branch,
+        alternatives,
     })
 }
 

@@ -309,6 +309,17 @@ fn evaluate_atoms(
     (values, unknown)
 }
 
+/// Whether every atom of alpha and of the input weights has a finite value.
+fn weights_known(aff: &Affine, values: &[f64]) -> bool {
+    let mut atoms: Vec<AtomId> = aff.alpha.atoms();
+    for (_, w) in &aff.inputs {
+        atoms.extend(w.atoms());
+    }
+    atoms
+        .iter()
+        .all(|a| values.get(*a as usize).is_some_and(|v| v.is_finite()))
+}
+
 /// Alpha and the sum of the input weights from the values of the atoms.
 pub fn alpha_of(aff: &Affine, values: &[f64]) -> (Option<f64>, Option<f64>) {
     let a = aff.alpha.evaluate(&|x| values[x as usize]);
@@ -372,10 +383,23 @@ pub fn judge_explained(
     }
     let ev = RefCell::new(new_evaluator(program, walk));
     let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
-    let aff = affine::read(&walk.graph, c.value, c.state, &shift)
+    let mut aff = affine::read(&walk.graph, c.value, c.state, &shift)
         .ok_or("not affine in the state, or no input")?;
     let mut evaluator = ev.into_inner();
-    let (values, unknown) = evaluate_atoms(program, walk, c, &aff, &mut evaluator);
+    let (mut values, mut unknown) = evaluate_atoms(program, walk, c, &aff, &mut evaluator);
+    // Weights that are not all numbers may mean the wrong factor of a product was named
+    // the input: the first other naming whose weights are all known is the reading.
+    if !aff.structural && !weights_known(&aff, &values) {
+        for alternative in std::mem::take(&mut aff.alternatives) {
+            let mut other = aff.clone();
+            other.inputs = alternative;
+            let (v, u) = evaluate_atoms(program, walk, c, &other, &mut evaluator);
+            if weights_known(&other, &v) {
+                (aff, values, unknown) = (other, v, u);
+                break;
+            }
+        }
+    }
     let state_type = state_type(program, walk, c);
     let mut reading = Reading {
         program,

@@ -137,6 +137,19 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
     if step_weighted {
         return None;
     }
+    // A leak with an input gain of its own: every input's weight is a named quantity that
+    // shares nothing with the decay, and the two do not make a unity gain (a leaky integral
+    // of a control loop, `i = i*0.9995f + KI*err`). A blend written with the wrong numbers
+    // (`y = 0.9f*y + 0.3f*u`) is still listed, for `dc-gain-not-one`.
+    let decay_atoms = a.alpha.atoms();
+    let own_gain = (w / alpha - 1.0).abs() > 0.02
+        && a.inputs.iter().all(|(_, wp)| {
+            let atoms = wp.atoms();
+            !atoms.is_empty() && atoms.iter().all(|x| !decay_atoms.contains(x))
+        });
+    if own_gain {
+        return None;
+    }
     let mut v = Verdict::new(Form::Ema);
     v.dc_gain = Some(w / alpha);
     Some(v)
