@@ -211,7 +211,9 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
     }
     let mut found = None;
     let mut fallback = None;
-    let mut alternatives: Vec<Vec<(AtomId, Poly)>> = Vec::new();
+    // The other non-clashing namings, kept as picks: their weights are worked out only
+    // when no naming sums to alpha.
+    let mut other_picks: Vec<Vec<AtomId>> = Vec::new();
     for k in 0..combos {
         let mut rem = k;
         let pick: Vec<AtomId> = choices
@@ -232,8 +234,8 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
         }
         if fallback.is_none() {
             fallback = Some(inputs.clone());
-        } else if alternatives.len() < 16 {
-            alternatives.push(inputs.clone());
+        } else if other_picks.len() < 16 {
+            other_picks.push(pick.clone());
         }
         let sum = inputs
             .iter()
@@ -294,9 +296,14 @@ pub fn read(g: &Graph, value: V, state: V, shift: &dyn Fn(V, V) -> Shift) -> Opt
         Some(i) => (i, true),
         None => (fallback?, false),
     };
-    if structural {
-        alternatives.clear();
-    }
+    let alternatives = if structural {
+        Vec::new()
+    } else {
+        other_picks
+            .iter()
+            .map(|pick| weights(&monomials, pick))
+            .collect()
+    };
     Some(Affine {
         atoms,
         state_atom,

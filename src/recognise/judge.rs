@@ -258,13 +258,41 @@ fn evaluate_atoms(
     aff: &Affine,
     ev: &mut Evaluator,
 ) -> (Vec<f64>, Vec<eval::Unknown>) {
-    let g = &walk.graph;
     let input_ids: Vec<AtomId> = aff.inputs.iter().map(|(a, _)| *a).collect();
     let mut leaves = vec![f64::NAN; aff.atoms.len()];
     let mut unknown = Vec::new();
+    evaluate_leaves(
+        r_program,
+        walk,
+        c,
+        aff,
+        ev,
+        &|id| id != aff.state_atom && !input_ids.contains(&id),
+        &mut leaves,
+        &mut unknown,
+    );
+    (
+        atom_values_checked(walk, aff, &leaves, &mut unknown),
+        unknown,
+    )
+}
+
+/// Evaluates the leaf and shift atoms `which` accepts into `leaves`.
+#[allow(clippy::too_many_arguments, reason = "one pass shared by two callers")]
+fn evaluate_leaves(
+    r_program: &Program,
+    walk: &WalkResult,
+    c: &Candidate,
+    aff: &Affine,
+    ev: &mut Evaluator,
+    which: &dyn Fn(AtomId) -> bool,
+    leaves: &mut [f64],
+    unknown: &mut Vec<eval::Unknown>,
+) {
+    let g = &walk.graph;
     for (i, kind) in aff.atoms.iter().enumerate() {
         let id = i as AtomId;
-        if id == aff.state_atom || input_ids.contains(&id) {
+        if !which(id) {
             continue;
         }
         match kind {
@@ -292,7 +320,18 @@ fn evaluate_atoms(
             AtomKind::Inverse(..) | AtomKind::Product(_) | AtomKind::Composite { .. } => {}
         }
     }
-    let mut values = affine::atom_values(&aff.atoms, &leaves);
+}
+
+/// The values of all atoms from those of the leaves; a zero denominator makes its inverse
+/// unknown.
+fn atom_values_checked(
+    walk: &WalkResult,
+    aff: &Affine,
+    leaves: &[f64],
+    unknown: &mut Vec<eval::Unknown>,
+) -> Vec<f64> {
+    let g = &walk.graph;
+    let mut values = affine::atom_values(&aff.atoms, leaves);
     // A denominator that is zero where the update stands has no quotient in C (C11
     // 6.5.5p5): the coefficient is unknown, not infinite.
     for (i, kind) in aff.atoms.iter().enumerate() {
@@ -306,7 +345,7 @@ fn evaluate_atoms(
             }
         }
     }
-    (values, unknown)
+    values
 }
 
 /// Whether every atom of alpha and of the input weights has a finite value.
@@ -388,14 +427,29 @@ pub fn judge_explained(
     let mut evaluator = ev.into_inner();
     let (mut values, mut unknown) = evaluate_atoms(program, walk, c, &aff, &mut evaluator);
     // Weights that are not all numbers may mean the wrong factor of a product was named
-    // the input: the first other naming whose weights are all known is the reading.
-    if !aff.structural && !weights_known(&aff, &values) {
+    // the input: the first other naming whose weights are all known is the reading. The
+    // atoms are evaluated once more, the first naming's inputs included; each naming is
+    // then only a look at those values.
+    if !aff.structural && !aff.alternatives.is_empty() && !weights_known(&aff, &values) {
+        let first_inputs: Vec<AtomId> = aff.inputs.iter().map(|(a, _)| *a).collect();
+        let mut leaves = values.clone();
+        let mut more_unknown = unknown.clone();
+        evaluate_leaves(
+            program,
+            walk,
+            c,
+            &aff,
+            &mut evaluator,
+            &|id| first_inputs.contains(&id),
+            &mut leaves,
+            &mut more_unknown,
+        );
+        let every = atom_values_checked(walk, &aff, &leaves, &mut more_unknown);
         for alternative in std::mem::take(&mut aff.alternatives) {
             let mut other = aff.clone();
             other.inputs = alternative;
-            let (v, u) = evaluate_atoms(program, walk, c, &other, &mut evaluator);
-            if weights_known(&other, &v) {
-                (aff, values, unknown) = (other, v, u);
+            if weights_known(&other, &every) {
+                (aff, values, unknown) = (other, every, more_unknown);
                 break;
             }
         }
