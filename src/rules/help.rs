@@ -61,7 +61,23 @@ pub fn suggest(s: &Smoother, alpha: f64, rate: Option<f64>) -> String {
         return format!("a window of N = {n} (about the same smoothing)");
     }
     let integer = s.arithmetic != Arithmetic::Float;
-    if integer && s.update.contains(">>") && s.arithmetic == Arithmetic::Integer {
+    let shifts = s.update_expr.as_ref().is_some_and(|e| {
+        let mut found = false;
+        e.walk(&mut |x| {
+            found |= matches!(
+                x.kind,
+                crate::ir::ExprKind::Binary {
+                    op: crate::ir::BinaryOp::Shr,
+                    ..
+                } | crate::ir::ExprKind::Assign {
+                    op: Some(crate::ir::BinaryOp::Shr),
+                    ..
+                }
+            );
+        });
+        found
+    });
+    if integer && shifts && s.arithmetic == Arithmetic::Integer {
         let k = (1.0 / alpha).log2().round().clamp(0.0, 30.0);
         let a = 2f64.powi(-(k as i32));
         return format!(">> {k} (alpha = {}, {})", sig(a), cutoff_text(a, rate));
