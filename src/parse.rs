@@ -551,8 +551,39 @@ fn variable_casts_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)>
                 }
             }
             kind::PREPROC_DEF => {
+                // A macro is a value unless its body names a type (`#define REAL float`).
                 if let Some(name) = field_child(node, field::NAME) {
-                    variables.insert(text(name));
+                    let body = field_child(node, field::VALUE).map(text).unwrap_or(&[]);
+                    let first = body
+                        .split(|b| !(b.is_ascii_alphanumeric() || *b == b'_'))
+                        .find(|w| !w.is_empty())
+                        .unwrap_or(&[]);
+                    let names_type = first.is_empty()
+                        || first.ends_with(b"_t")
+                        || matches!(
+                            first,
+                            b"float"
+                                | b"double"
+                                | b"int"
+                                | b"char"
+                                | b"short"
+                                | b"long"
+                                | b"signed"
+                                | b"unsigned"
+                                | b"struct"
+                                | b"union"
+                                | b"enum"
+                                | b"const"
+                                | b"volatile"
+                                | b"_Bool"
+                                | b"bool"
+                                | b"void"
+                        );
+                    if names_type {
+                        types.insert(text(name));
+                    } else {
+                        variables.insert(text(name));
+                    }
                 }
             }
             kind::TYPE_DEFINITION => {
@@ -615,9 +646,10 @@ fn error_count(tree: &Tree) -> usize {
 }
 
 /// The file with each function body that holds a parse error read through the first
-/// branch of each of its preprocessor conditionals (the directives and the other branches
-/// blanked, every line kept), and its tree, when that has fewer errors than `tree`.
-fn first_branches_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)> {
+/// branch of each conditional that splits a statement (the directives and the other
+/// branches blanked, every line kept), its tree, and the offsets of the groups read so,
+/// when that has fewer errors than `tree`.
+fn first_branches_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree, Vec<usize>)> {
     let errors: Vec<usize> = {
         let mut out = Vec::new();
         let mut stack = vec![tree.root_node()];
@@ -642,23 +674,24 @@ fn first_branches_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)>
         .filter(|r| errors.iter().any(|e| r.contains(e)))
         .collect();
     let mut out = source.to_vec();
-    let mut changed = false;
+    let mut groups = Vec::new();
     for r in &regions {
-        changed |= keep_first_branches(&mut out, r.clone());
+        groups.extend(keep_first_branches(&mut out, r.clone()));
     }
-    if !changed {
+    if groups.is_empty() {
         return None;
     }
     let variant = parse_tree(&out)?;
-    (error_count(&variant) < error_count(tree)).then_some((out, variant))
+    (error_count(&variant) < error_count(tree)).then_some((out, variant, groups))
 }
 
 /// Blanks, inside `range`, each outermost conditional group that splits a statement (a
 /// branch that opens more braces than it closes or the reverse, or a line of it that
 /// starts or ends with `else`): its directives and every branch but the first (nested
-/// groups inside a kept branch likewise). Groups that hold whole statements are left to
-/// the grammar, which reads them. Whether anything was blanked.
-fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
+/// groups inside a kept branch likewise; after `#if 0`, the second branch). Groups that
+/// hold whole statements are left to the grammar, which reads them. The offsets of the
+/// groups blanked.
+fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> Vec<usize> {
     // The lines of the range: (start, end, directive word).
     let end = range.end.min(out.len());
     let mut lines: Vec<(usize, usize, Option<Vec<u8>>)> = Vec::new();
@@ -675,7 +708,13 @@ fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
                 .iter()
                 .position(|b| !b.is_ascii_alphabetic())
                 .unwrap_or(rest.len());
-            rest[..word_len].to_vec()
+            // `#if 0` is told apart: its first branch is never built.
+            if &rest[..word_len] == b"if" && trim_blank(&rest[word_len..]).trim_ascii_end() == b"0"
+            {
+                b"if0".to_vec()
+            } else {
+                rest[..word_len].to_vec()
+            }
         });
         lines.push((i, k, directive));
         i = k + 1;
@@ -688,7 +727,7 @@ fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
     let mut delta = 0i64;
     for (n, (a, b, directive)) in lines.iter().enumerate() {
         match directive.as_deref() {
-            Some(b"if" | b"ifdef" | b"ifndef") => {
+            Some(b"if" | b"if0" | b"ifdef" | b"ifndef") => {
                 if depth == 0 {
                     start = n;
                     splits = false;
@@ -721,23 +760,25 @@ fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
             _ => {}
         }
     }
-    let mut changed = false;
+    let mut changed = Vec::new();
     for (first, last, splits) in groups {
         if !splits {
             continue;
         }
-        // Per open group: whether the branch being read is kept.
-        let mut keep: Vec<bool> = Vec::new();
+        changed.push(lines[first].0);
+        // Per open group: (the branch being read, the branch kept). The first branch is
+        // kept, the second after `#if 0`.
+        let mut keep: Vec<(usize, usize)> = Vec::new();
         for (a, b, directive) in &lines[first..=last] {
-            let kept = keep.iter().all(|k| *k);
+            let kept = keep.iter().all(|(at, chosen)| at == chosen);
             let blank = match directive.as_deref() {
-                Some(b"if" | b"ifdef" | b"ifndef") => {
-                    keep.push(true);
+                Some(w @ (b"if" | b"if0" | b"ifdef" | b"ifndef")) => {
+                    keep.push((0, usize::from(w == b"if0")));
                     true
                 }
                 Some(b"elif" | b"else") => {
-                    if let Some(k) = keep.last_mut() {
-                        *k = false;
+                    if let Some((at, _)) = keep.last_mut() {
+                        *at += 1;
                     }
                     true
                 }
@@ -753,7 +794,6 @@ fn keep_first_branches(out: &mut [u8], range: std::ops::Range<usize>) -> bool {
                         *byte = b' ';
                     }
                 }
-                changed = true;
             }
         }
     }
@@ -781,11 +821,20 @@ fn terminate_bare_macro_lines(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
     let mut closed_word = (0usize, 0usize);
     let n = source.len();
     let is_word = |b: u8| b.is_ascii_alphanumeric() || b == b'_';
+    // Whether an `enum`, `struct` or `union` keyword came since the last `;` or brace.
+    let mut aggregate = false;
     while i < n {
         let b = source[i];
         if !is_word(b) {
             if let Some(start) = word.take() {
                 last_word = (start, i);
+                // `enum {`, `struct tag {` in a body open data, not code.
+                if matches!(&source[start..i], b"enum" | b"struct" | b"union") {
+                    aggregate = true;
+                }
+            }
+            if b == b';' {
+                aggregate = false;
             }
         }
         match b {
@@ -843,9 +892,11 @@ fn terminate_bare_macro_lines(source: &[u8]) -> std::borrow::Cow<'_, [u8]> {
                 let after_call = last_sig == b')'
                     && !closed.is_empty()
                     && !matches!(closed, b"return" | b"sizeof");
-                let code = (in_code && !matches!(last_sig, b'=' | b')' | b','))
-                    || after_call
-                    || matches!(&source[last_word.0..last_word.1], b"else" | b"do");
+                let code = !aggregate
+                    && ((in_code && !matches!(last_sig, b'=' | b')' | b','))
+                        || after_call
+                        || matches!(&source[last_word.0..last_word.1], b"else" | b"do"));
+                aggregate = false;
                 kinds.push(code);
                 if kinds.len() > 256 {
                     return std::borrow::Cow::Borrowed(source);
@@ -975,7 +1026,26 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
         None
     };
     let (source, tree): (&[u8], Tree) = match &reread {
-        Some((bytes, tree)) => (bytes, tree.clone()),
+        Some((bytes, tree, groups)) => {
+            // What was not read is said, as for any region the grammar could not read.
+            for at in groups {
+                let before = &terminated[..*at];
+                let line = before.iter().filter(|b| **b == b'\n').count() as u32 + 1;
+                ir.problems.push(ParseProblem {
+                    span: Span {
+                        file,
+                        start: *at as u32,
+                        end: *at as u32,
+                        line,
+                        column: 1,
+                    },
+                    message:
+                        "a conditional here splits a statement; only one of its branches was read"
+                            .into(),
+                });
+            }
+            (bytes, tree.clone())
+        }
         None => (&terminated, first_tree),
     };
     // `u*(alpha) + y*(1 - alpha)`: the grammar reads `(alpha) + y` as a cast of `+y`, which
@@ -2459,7 +2529,9 @@ mod tests {
     fn a_conditional_that_splits_an_if_else_is_read_through_its_first_branch() {
         let src = "float y, z;\nvoid f(float u, int ok) {\n#ifdef HAVE_Z\n    if (ok) {\n        z = u;\n    } else\n#endif\n    {\n        y += 0.5f * (u - y);\n    }\n}\n";
         let ir = parse_file(FileId(0), src.as_bytes());
-        assert!(ir.problems.is_empty(), "{:?}", ir.problems);
+        // The branch not read is said, at the conditional's line.
+        assert_eq!(ir.problems.len(), 1, "{:?}", ir.problems);
+        assert_eq!(ir.problems[0].span.line, 3);
         let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
         assert!(matches!(
             f.body.first(),
@@ -2468,6 +2540,26 @@ mod tests {
                 ..
             })
         ));
+        // After `#if 0` the second branch is the one built.
+        let src = "float y;\nvoid f(float u, int ok) {\n#if 0\n    if (ok) { y = u;\n#else\n    if (ok) { y += 0.5f * (u - y);\n#endif\n    }\n}\n";
+        let ir = parse_file(FileId(0), src.as_bytes());
+        let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
+        let Some(Stmt::If { then, .. }) = f.body.first() else {
+            panic!("{:?}", f.body);
+        };
+        let text = format!("{then:?}");
+        assert!(text.contains("Some(Add)"), "{text}");
+    }
+
+    #[test]
+    fn enum_bodies_in_functions_and_type_macros_are_left_alone() {
+        let src = b"void f(void)\n{\n    enum {\n        ONLY_MODE\n    };\n}\n";
+        let out = terminate_bare_macro_lines(src);
+        assert!(String::from_utf8_lossy(&out).contains("\n        ONLY_MODE\n"));
+        // `(REAL) -raw` with `#define REAL float` stays a cast.
+        let src = "#define REAL float\nfloat y;\nvoid f(float raw) {\n    y = y*0.9f + (REAL) -raw*0.1f;\n}\n";
+        let text = first_assigned(src);
+        assert!(text.contains("(REAL)"), "{text}");
     }
 
     #[test]

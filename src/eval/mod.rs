@@ -662,6 +662,11 @@ impl<'p> Evaluator<'p> {
         let local = scope
             .function
             .and_then(|f| find_local(self.program.function(f), name));
+        // A local's initialiser reads the function's names (its parameters shadow globals).
+        let init_scope = match &local {
+            Some(_) => scope.function.map(Scope::in_function).unwrap_or_default(),
+            None => Scope::default(),
+        };
         let global = match local {
             Some(l) => l,
             None => self
@@ -749,7 +754,7 @@ impl<'p> Evaluator<'p> {
                 global.span.line,
                 format!("{name}[{k}] = {e}"),
             );
-            ev.eval(e, &Scope::default())
+            ev.eval(e, &init_scope)
         };
         Some(match self.eval(index, scope) {
             Ok(k) => {
@@ -1558,6 +1563,13 @@ mod tests {
         let e = parse_expression("a[1]", Span::default()).unwrap();
         let v = Evaluator::new(&p).eval(&e, &Scope::in_function(f));
         assert_eq!(v.unwrap().as_f64(), 8192.0);
+        // A local table filled from a parameter is not the global of the same name.
+        let p = program(
+            "static const float a = 0.5f;\nfloat g(float a) {\n    const float k[2] = {a, a};\n    return k[0];\n}\n",
+        );
+        let g = p.function_by_name("g").unwrap();
+        let e = parse_expression("k[0]", Span::default()).unwrap();
+        assert!(Evaluator::new(&p).eval(&e, &Scope::in_function(g)).is_err());
     }
 
     #[test]

@@ -610,6 +610,19 @@ mod tests {
     }
 
     #[test]
+    fn a_helper_that_jumps_is_not_put_in() {
+        // `goto out` skips `k = 0.05f`: coef(1) returns 0.1f, which a helper read as
+        // straight-line code would get wrong.
+        let src = "static float y;\nstatic float coef(int fast) { float k = 0.1f; if (fast) goto out; k = 0.05f; out: return k; }\nvoid f(float u) { y += coef(1) * (u - y); }\n";
+        let found = find(src);
+        assert!(
+            found.iter().all(|s| s.alpha != Coefficient::Known(0.05)),
+            "{:?}",
+            found.iter().map(|s| &s.alpha).collect::<Vec<_>>()
+        );
+    }
+
+    #[test]
     fn named_coefficient_is_resolved_with_its_chain() {
         let src = "#define K 0.125f\nstatic float y;\nvoid f(float u) { y += K * (u - y); }\n";
         let found = find(src);

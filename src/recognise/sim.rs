@@ -274,7 +274,7 @@ impl Update {
         }
         let base_out = (input_max / 3).clamp(1, 1000);
         let span = if alpha > 0.0 && alpha.is_finite() {
-            ((4.0 / alpha).ceil() as i128 + 64).min(1 << 17)
+            ((4.0 / alpha).ceil().min((1 << 17) as f64) as i128 + 64).min(1 << 17)
         } else {
             1 << 12
         };
@@ -282,7 +282,7 @@ impl Update {
         // How far the bisection looks: a truncation in each of two statements rests up to
         // about 1/alpha^2 counts away.
         let reach = if alpha > 0.0 && alpha.is_finite() {
-            ((1.0 / (alpha * alpha)).ceil() as i128 + 64).clamp(span, 1 << 20)
+            ((1.0 / (alpha * alpha)).ceil().min((1 << 20) as f64) as i128 + 64).clamp(span, 1 << 20)
         } else {
             span
         };

@@ -303,11 +303,14 @@ struct Walker<'a> {
 }
 
 /// Walks a function body.
-/// Whether a body has no loop, switch or preprocessor conditional, at any depth (up to 16).
+/// Whether a body has no loop, switch, jump or preprocessor conditional, at any depth (up
+/// to 16).
 fn only_branches(body: &[Stmt], depth: usize) -> bool {
     depth < 16
         && body.iter().all(|s| match s {
-            Stmt::Expr(_) | Stmt::Decl(_) | Stmt::Return(..) | Stmt::Other(_) => true,
+            Stmt::Expr(_) | Stmt::Decl(_) | Stmt::Return(..) => true,
+            // `goto`, labels and whatever else the lowering keeps as text can jump.
+            Stmt::Other(_) => false,
             Stmt::Block(items) => only_branches(items, depth + 1),
             Stmt::If {
                 then, otherwise, ..
