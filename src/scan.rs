@@ -206,6 +206,14 @@ fn run_here(options: &ScanOptions) -> Scan {
         .map(|(i, source)| {
             let id = FileId(i as u32);
             match std::fs::read(&source.absolute) {
+                // A file named on the command line that holds NUL bytes is not C text.
+                Ok(bytes) if source.named && bytes.contains(&0) => (
+                    FileIr {
+                        file: id,
+                        ..FileIr::default()
+                    },
+                    Some("holds NUL bytes: not C source text; not read".to_string()),
+                ),
                 Ok(bytes) => (lower(id, &bytes, options.cache.as_ref()), None),
                 Err(e) => (
                     FileIr {

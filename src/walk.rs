@@ -25,6 +25,8 @@ pub struct SourcePath {
     pub absolute: PathBuf,
     /// Relative to the scan root, with '/' separators.
     pub relative: String,
+    /// Named on the command line (not found by walking a folder).
+    pub named: bool,
 }
 
 #[derive(Debug, Clone)]
@@ -151,7 +153,19 @@ pub fn walk(paths: &[PathBuf], root: Option<&Path>, excluded: &dyn Fn(&str) -> b
                 }
                 continue;
             }
-            if entry.file_type().is_dir() || !is_c_source(entry.path()) {
+            if entry.file_type().is_dir() {
+                continue;
+            }
+            if !is_c_source(entry.path()) {
+                // A file named on the command line that is not C is a mistake to say, not
+                // something to skip in silence.
+                if entry.depth() == 0 {
+                    result.problems.push(WalkProblem {
+                        path: relative_to(&root, entry.path()),
+                        message: "is not a C source or header (.c, .h); not read".into(),
+                        incomplete: true,
+                    });
+                }
                 continue;
             }
             if !entry.file_type().is_file() {
@@ -179,10 +193,19 @@ pub fn walk(paths: &[PathBuf], root: Option<&Path>, excluded: &dyn Fn(&str) -> b
             result.files.push(SourcePath {
                 absolute: entry.path().to_path_buf(),
                 relative,
+                named: entry.depth() == 0,
             });
         }
     }
     result.files.sort_by(|a, b| a.relative.cmp(&b.relative));
+    // A gate pointed at the wrong folder must not pass on nothing.
+    if result.files.is_empty() && !result.problems.iter().any(|p| p.incomplete) {
+        result.problems.push(WalkProblem {
+            path: root.to_string_lossy().into_owned(),
+            message: "no C source or header (.c, .h) was found under the paths given".into(),
+            incomplete: true,
+        });
+    }
     result.files.dedup_by(|a, b| a.relative == b.relative);
     result
 }

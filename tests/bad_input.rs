@@ -722,3 +722,43 @@ fn escape_sequences_in_arguments_do_not_reach_stderr() {
         assert_no_raw_control("standard error", &run.stderr_bytes, &run);
     }
 }
+
+// A gate pointed at the wrong place never passes on nothing.
+
+#[test]
+fn no_c_file_to_read_is_an_incomplete_scan() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "empty/README.txt", "no sources here\n");
+    for command in ["list", "check"] {
+        let run = tauscan_in(dir.path(), &[command, "empty"], LIMIT);
+        run.assert_exit(
+            2,
+            "a folder with no .c or .h file gives the gate no verdict",
+        );
+        assert!(
+            run.stderr.contains("no C source or header"),
+            "{}",
+            run.context()
+        );
+    }
+}
+
+#[test]
+fn a_named_file_that_is_not_c_is_noted_and_the_scan_is_incomplete() {
+    let dir = tree_with_good_sibling();
+    write(dir.path(), "firmware.bin", b"\x7fELF\x00\x01\x02");
+    write(dir.path(), "dump.c", b"\x00\x00\x13\x37");
+    for named in ["firmware.bin", "dump.c"] {
+        let run = tauscan_in(
+            dir.path(),
+            &["list", "root", named, "--format", "json"],
+            LIMIT,
+        );
+        run.assert_exit(
+            2,
+            "a named file that cannot be read as C leaves the scan incomplete",
+        );
+        run.assert_note_on(named);
+        assert_sibling_reported(&run);
+    }
+}

@@ -533,7 +533,14 @@ fn the_spec_format_in_the_module_doc_is_a_spec_tauscan_accepts() {
     let dir = tempfile::tempdir().unwrap();
     let spec = dir.path().join("doc-example.yaml");
     std::fs::write(&spec, doc_yaml()).unwrap();
-    std::fs::write(dir.path().join("empty.c"), "void idle(void) {}\n").unwrap();
+    // Under `src/`, which the example's `scan.include` takes: a spec whose patterns leave
+    // no file to read makes the scan incomplete (exit 2).
+    std::fs::create_dir_all(dir.path().join("src")).unwrap();
+    std::fs::write(
+        dir.path().join("src").join("empty.c"),
+        "void idle(void) {}\n",
+    )
+    .unwrap();
     let out = tauscan(&[
         "check",
         "--spec",
