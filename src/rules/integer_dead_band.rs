@@ -13,8 +13,13 @@ pub const RULE: RuleInfo = RuleInfo {
     check,
 };
 
-pub(super) const FIX: &str = "keep the state scaled (`acc += u - (acc >> k)`, read `acc >> k`), \
-or round before truncating (add N/2 before `/ N`); either keeps the rest within one count";
+/// Each claim is held by execution: the scaled states of `fixtures/forms/scaled_state.c`
+/// and `cold_store.c` rest under one count; the rounded forms of `ema_rounded.c` rest about
+/// half the band on each side, and a rounded signed division farther on one side below
+/// zero (`tests/exec_truth.rs`).
+pub(super) const FIX: &str = "keep the state scaled (`acc += u - (acc >> k)`, read `acc >> k`): \
+it then rests under one count of the output; rounding before truncating (add N/2 before \
+`>> k` or `/ N`) only halves the band and splits it over both sides";
 
 /// Counts, with engineering units when the spec gives what a count is worth.
 pub(super) fn counts(n: u64, input: &Input) -> String {
