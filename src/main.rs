@@ -387,6 +387,11 @@ fn emit(text: &str, output: &Option<PathBuf>) -> Result<()> {
     }
 }
 
+/// An incomplete scan that read no file at all (a missing path, no C file).
+fn nothing_read(result: &scan::Scan) -> bool {
+    result.incomplete && result.program.paths.is_empty()
+}
+
 fn run(cli: Cli) -> Result<Status> {
     match cli.command {
         Command::List {
@@ -398,6 +403,12 @@ fn run(cli: Cli) -> Result<Status> {
             let result = scan::run(&options);
             print_notes(&result);
             let root_label = result.root.to_string_lossy().replace('\\', "/");
+            // Nothing was read: the notes say why, and an empty table would only look like
+            // an answer.
+            if matches!(format, Format::Table) && nothing_read(&result) {
+                eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
+                return Ok(Status::ToolError);
+            }
             let text = match format {
                 Format::Table => report::table::render(&result),
                 Format::Json => report::json::render(&result, &root_label),
@@ -562,6 +573,10 @@ fn check(
     let options = scan_options_with(args, &spec)?;
     let mut result = scan::run(&options);
     print_notes(&result);
+    if matches!(format, Format::Table) && nothing_read(&result) {
+        eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
+        return Ok(Status::ToolError);
+    }
     let mut checked = tauscan::check::run(&mut result, &spec);
     if let Some(entries) = &known {
         let gone = report::baseline::apply(&mut checked, &spec, entries);
@@ -728,6 +743,10 @@ fn report(args: &ScanArgs, spec_path: Option<PathBuf>, out: &std::path::Path) ->
     let options = scan_options_with(args, &spec)?;
     let mut result = scan::run(&options);
     print_notes(&result);
+    if nothing_read(&result) {
+        eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
+        return Ok(Status::ToolError);
+    }
     let checked = tauscan::check::run(&mut result, &spec);
     let root = result.root.clone();
     let paths = result.program.paths.clone();

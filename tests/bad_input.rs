@@ -762,3 +762,24 @@ fn a_named_file_that_is_not_c_is_noted_and_the_scan_is_incomplete() {
         assert_sibling_reported(&run);
     }
 }
+
+#[test]
+fn a_scan_that_read_nothing_prints_no_empty_table_and_writes_no_file() {
+    let dir = tempfile::tempdir().unwrap();
+    for command in ["list", "check"] {
+        let run = tauscan_in(dir.path(), &[command, "no-such-folder"], LIMIT);
+        run.assert_exit(2, "a path that does not exist leaves the scan incomplete");
+        assert!(
+            run.stdout.is_empty(),
+            "an empty table looks like an answer:\n{}",
+            run.context()
+        );
+        let run = tauscan_in(
+            dir.path(),
+            &[command, "no-such-folder", "-o", "out.txt"],
+            LIMIT,
+        );
+        run.assert_exit(2, "nothing to write");
+        assert!(!dir.path().join("out.txt").exists(), "{}", run.context());
+    }
+}
