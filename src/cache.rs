@@ -23,9 +23,40 @@ pub struct Cache {
 }
 
 impl Cache {
-    /// Opens (creating it when needed) the cache folder `dir`.
+    /// Opens the cache folder `dir`, creating it when its parent exists (a mistyped deep
+    /// path is an error, not a new tree of folders).
     pub fn open(dir: &Path) -> std::io::Result<Cache> {
-        std::fs::create_dir_all(dir)?;
+        use std::io::{Error, ErrorKind};
+        match std::fs::metadata(dir) {
+            Ok(meta) if meta.is_dir() => {}
+            Ok(_) => {
+                return Err(Error::new(
+                    ErrorKind::AlreadyExists,
+                    "it is a file, not a folder",
+                ))
+            }
+            Err(_) => {
+                let parent = dir
+                    .parent()
+                    .filter(|p| !p.as_os_str().is_empty())
+                    .unwrap_or(Path::new("."));
+                if !parent.is_dir() {
+                    return Err(Error::new(
+                        ErrorKind::NotFound,
+                        format!(
+                            "its parent folder {} does not exist (create it first)",
+                            parent.display()
+                        ),
+                    ));
+                }
+                // Another job may have made it in the meantime.
+                if let Err(e) = std::fs::create_dir(dir) {
+                    if !dir.is_dir() {
+                        return Err(e);
+                    }
+                }
+            }
+        }
         Ok(Cache {
             dir: dir.to_path_buf(),
         })

@@ -146,6 +146,32 @@ fn a_cache_folder_that_cannot_be_made_is_a_clear_error() {
 }
 
 #[test]
+fn a_cache_path_that_is_a_file_or_has_no_parent_is_refused_by_name() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "tree/kiln.c", GOOD_SMOOTHER);
+    write(dir.path(), "notes.txt", "a file, not a folder");
+    let run = tauscan_in(dir.path(), &["list", "tree", "--cache", "notes.txt"], LIMIT);
+    assert_refused_naming(&run, "notes.txt", "a file is no cache folder");
+    assert!(run.stderr.contains("not a folder"), "{}", run.context());
+    // A mistyped deep path is not made folder by folder.
+    let run = tauscan_in(
+        dir.path(),
+        &["list", "tree", "--cache", "cahce/tauscan/v1"],
+        LIMIT,
+    );
+    assert_refused_naming(
+        &run,
+        "cahce",
+        "the parent of the cache folder does not exist",
+    );
+    assert!(!dir.path().join("cahce").exists(), "{}", run.context());
+    // One level below an existing folder is made.
+    let run = tauscan_in(dir.path(), &["list", "tree", "--cache", "cache"], LIMIT);
+    run.assert_exit(0, "a new cache folder in an existing one is made");
+    assert!(dir.path().join("cache").is_dir());
+}
+
+#[test]
 fn files_with_the_same_bytes_share_one_entry_written_whole() {
     // Fifty files with the same bytes are one entry, which the parsing threads may write
     // at the same moment; every later scan must still read it whole.
