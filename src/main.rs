@@ -387,6 +387,22 @@ fn emit(text: &str, output: &Option<PathBuf>) -> Result<()> {
     }
 }
 
+/// The scan root as a document names it: `.` (or `..`) is the folder's own name.
+fn document_root_name(root: &std::path::Path) -> String {
+    let text = root.to_string_lossy().replace('\\', "/");
+    let bare = text.trim_end_matches('/');
+    if bare.is_empty() || bare == "." || bare.ends_with("/.") || bare.ends_with("..") {
+        if let Some(name) = root
+            .canonicalize()
+            .ok()
+            .and_then(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+        {
+            return name;
+        }
+    }
+    text
+}
+
 /// An incomplete scan that read no file at all (a missing path, no C file).
 fn nothing_read(result: &scan::Scan) -> bool {
     result.incomplete && result.program.paths.is_empty()
@@ -755,7 +771,7 @@ fn report(args: &ScanArgs, spec_path: Option<PathBuf>, out: &std::path::Path) ->
         std::fs::read(root.join(rel)).ok()
     };
     let header = report::document::Header {
-        root: result.root.to_string_lossy().replace('\\', "/"),
+        root: document_root_name(&result.root),
         revision: revision_of(&result.root),
         spec: loaded.as_ref().map(|(p, _, _)| shown_path(p)),
         date_utc: document_date(),

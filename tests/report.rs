@@ -719,3 +719,18 @@ fn the_demo_page_renders_in_headless_chromium() {
     assert_eq!(plotted, with_figures);
     assert!(plotted >= 7, "the demo has seven smoothers with figures");
 }
+
+#[test]
+fn a_document_of_the_current_folder_is_titled_with_its_name() {
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("kiln-controller");
+    common::write(&tree, "zone.c", common::GOOD_SMOOTHER);
+    let run = common::tauscan_in(&tree, &["report", ".", "--out", "doc.md"], common::LIMIT);
+    run.assert_exit(0, "a document of a clean tree");
+    let text = std::fs::read_to_string(tree.join("doc.md")).unwrap();
+    assert!(
+        text.starts_with("# Smoothers of kiln-controller\n"),
+        "{}",
+        text.lines().next().unwrap_or("")
+    );
+}
