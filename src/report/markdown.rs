@@ -31,6 +31,45 @@ pub fn cell(text: &str) -> String {
     out
 }
 
+/// C text as a code span: shown as written (`f->y`, no entities), one line, with no pipe
+/// that could end a table cell and a fence longer than any backtick run inside.
+pub fn code(text: &str) -> String {
+    let one_line = crate::report::neutral(&text.replace(['\n', '\r'], " ")).replace('|', "\\|");
+    let mut longest = 0;
+    let mut run = 0;
+    for c in one_line.chars() {
+        run = if c == '`' { run + 1 } else { 0 };
+        longest = longest.max(run);
+    }
+    let fence = "`".repeat(longest + 1);
+    let pad = if one_line.starts_with('`') || one_line.ends_with('`') {
+        " "
+    } else {
+        ""
+    };
+    format!("{fence}{pad}{one_line}{pad}{fence}")
+}
+
+/// A message whose `quoted` parts are C: those as code spans, the rest as cell text.
+pub fn rich(text: &str) -> String {
+    let parts: Vec<&str> = text.split('`').collect();
+    if parts.len().is_multiple_of(2) {
+        // Unbalanced backticks: all of it as plain text.
+        return cell(text);
+    }
+    parts
+        .iter()
+        .enumerate()
+        .map(|(k, part)| {
+            if k % 2 == 1 && !part.is_empty() {
+                code(part)
+            } else {
+                cell(part)
+            }
+        })
+        .collect()
+}
+
 pub fn render(scan: &Scan, result: &CheckResult) -> String {
     let mut counts: BTreeMap<Severity, usize> = BTreeMap::new();
     let mut suppressed = 0;
@@ -91,7 +130,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
                 .collect();
             out.push_str(&format!(
                 "| {} | {}:{} | {} | {} | {} | {} | {} | {} |\n",
-                cell(&result.ids[i]),
+                code(&result.ids[i]),
                 cell(scan.program.path(s.span.file)),
                 s.span.line,
                 coefficient,
@@ -123,7 +162,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
                 f.severity.name(),
                 f.rule,
                 cell(&place),
-                cell(&f.message)
+                rich(&f.message)
             ));
             let details = crate::report::finding_details(
                 f.help.as_deref(),
@@ -131,7 +170,7 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
                 f.baselined,
             );
             for line in details {
-                out.push_str(&format!("  \n  {}", cell(&line)));
+                out.push_str(&format!("  \n  {}", rich(&line)));
             }
             out.push('\n');
         }
@@ -142,11 +181,24 @@ pub fn render(scan: &Scan, result: &CheckResult) -> String {
 
 #[cfg(test)]
 mod tests {
-    use super::cell;
+    use super::{cell, code, rich};
 
     #[test]
     fn cells_cannot_break_the_table_or_inject_markup() {
         assert_eq!(cell("a|b<script>&"), "a\\|b&lt;script&gt;&amp;");
         assert_eq!(cell("x\ny"), "x y");
+    }
+
+    #[test]
+    fn c_text_is_shown_as_written_in_code_spans() {
+        // CommonMark 0.31, "Code spans": no entity or markup inside; GFM tables need `\|`.
+        assert_eq!(code("f->y"), "`f->y`");
+        assert_eq!(code("a|b"), "`a\\|b`");
+        assert_eq!(code("x`y"), "``x`y``");
+        assert_eq!(
+            rich("`f->y` rests 7 below <u>"),
+            "`f->y` rests 7 below &lt;u&gt;"
+        );
+        assert_eq!(rich("odd ` tick"), cell("odd ` tick"));
     }
 }
