@@ -53,13 +53,30 @@ impl FailOn {
     }
 }
 
+/// The formats of `list`.
+#[derive(Clone, Copy, ValueEnum)]
+enum ListFormat {
+    Table,
+    Json,
+}
+
+/// The formats of `diff`.
+#[derive(Clone, Copy, ValueEnum)]
+enum DiffFormat {
+    Table,
+    Json,
+    /// A summary for a pull-request comment.
+    Markdown,
+}
+
+/// The formats of `check`.
 #[derive(Clone, Copy, ValueEnum)]
 enum Format {
     Table,
     Json,
-    /// SARIF 2.1.0 (`check` only).
+    /// SARIF 2.1.0.
     Sarif,
-    /// A summary for a pull-request comment (`check` only).
+    /// A summary for a pull-request comment.
     Markdown,
 }
 
@@ -95,8 +112,8 @@ enum Command {
         #[command(flatten)]
         scan: ScanArgs,
         /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[arg(long, value_enum, default_value_t = ListFormat::Table)]
+        format: ListFormat,
         /// Write the output to this file (whole or not at all) instead of standard output.
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
@@ -151,8 +168,8 @@ enum Command {
         #[command(flatten)]
         scan: ScanArgs,
         /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[arg(long, value_enum, default_value_t = DiffFormat::Table)]
+        format: DiffFormat,
         /// Write the output to this file (whole or not at all) instead of standard output.
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
@@ -421,16 +438,13 @@ fn run(cli: Cli) -> Result<Status> {
             let root_label = result.root.to_string_lossy().replace('\\', "/");
             // Nothing was read: the notes say why, and an empty table would only look like
             // an answer.
-            if matches!(format, Format::Table) && nothing_read(&result) {
+            if matches!(format, ListFormat::Table) && nothing_read(&result) {
                 eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
                 return Ok(Status::ToolError);
             }
             let text = match format {
-                Format::Table => report::table::render(&result),
-                Format::Json => report::json::render(&result, &root_label),
-                Format::Sarif | Format::Markdown => {
-                    bail!("--format sarif and markdown are for `tauscan check`, which has findings")
-                }
+                ListFormat::Table => report::table::render(&result),
+                ListFormat::Json => report::json::render(&result, &root_label),
             };
             emit(&text, &output)?;
             if result.incomplete {
@@ -895,7 +909,7 @@ fn scan_side(args: &ScanArgs, root: &std::path::Path) -> Result<scan::Scan> {
 fn diff(
     revisions: &str,
     args: &ScanArgs,
-    format: Format,
+    format: DiffFormat,
     output: &Option<PathBuf>,
 ) -> Result<Status> {
     let path = match args.paths.as_slice() {
@@ -936,10 +950,9 @@ fn diff(
     let changes = tauscan::diff::compare(&before, &after);
     let to_label = to.clone().unwrap_or_else(|| "the work tree".into());
     let text = match format {
-        Format::Json => report::diff::json(&changes, &from, &to_label),
-        Format::Markdown => report::diff::markdown(&changes, &from, &to_label),
-        Format::Table => report::diff::table(&changes, &from, &to_label),
-        Format::Sarif => bail!("--format sarif is for `tauscan check`"),
+        DiffFormat::Json => report::diff::json(&changes, &from, &to_label),
+        DiffFormat::Markdown => report::diff::markdown(&changes, &from, &to_label),
+        DiffFormat::Table => report::diff::table(&changes, &from, &to_label),
     };
     emit(&text, output)?;
     Ok(Status::Clean)

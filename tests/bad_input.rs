@@ -783,3 +783,28 @@ fn a_scan_that_read_nothing_prints_no_empty_table_and_writes_no_file() {
         assert!(!dir.path().join("out.txt").exists(), "{}", run.context());
     }
 }
+
+#[test]
+fn each_command_offers_only_the_formats_it_writes() {
+    let dir = tree_with_good_sibling();
+    for (command, refused, offered) in [
+        ("list", "sarif", vec!["table", "json"]),
+        ("list", "markdown", vec!["table", "json"]),
+        ("diff", "sarif", vec!["table", "json", "markdown"]),
+    ] {
+        let run = tauscan_in(dir.path(), &[command, "HEAD", "--format", refused], LIMIT);
+        run.assert_exit(2, "a format the command does not write is a usage error");
+        let help = tauscan_in(dir.path(), &[command, "--help"], LIMIT);
+        let text = String::from_utf8_lossy(&help.stdout).to_string();
+        assert!(
+            !text.contains(refused),
+            "{command} --help offers {refused}:\n{text}"
+        );
+        for format in offered {
+            assert!(
+                text.contains(format),
+                "{command} --help lacks {format}:\n{text}"
+            );
+        }
+    }
+}
