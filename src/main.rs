@@ -108,6 +108,9 @@ struct ScanArgs {
 #[derive(Subcommand)]
 enum Command {
     /// List every recursive smoother with its coefficient, rate and figures.
+    #[command(
+        after_help = "Exit status: 0 the scan completed; 2 a usage error, or the scan is incomplete (a path\nmissing, a file unreadable, no C file found).\n\nExample:\n  tauscan list firmware/ --rate 1kHz --format json -o smoothers.json"
+    )]
     List {
         #[command(flatten)]
         scan: ScanArgs,
@@ -119,6 +122,9 @@ enum Command {
         output: Option<PathBuf>,
     },
     /// Hold every smoother against the spec (tauscan.yaml) and report what disagrees.
+    #[command(
+        after_help = "Exit status: 0 no finding at or above --fail-on; 1 findings at or above it; 2 a usage\nor spec error, or the scan is incomplete (a gate never passes because tauscan failed).\n\nExample:\n  tauscan check firmware/ --spec tauscan.yaml --format sarif -o tauscan.sarif"
+    )]
     Check {
         #[command(flatten)]
         scan: ScanArgs,
@@ -140,6 +146,9 @@ enum Command {
     },
     /// Write the smoother document: every smoother with its figures, source, derivation,
     /// verdict and plots, as one self-contained HTML page or as Markdown.
+    #[command(
+        after_help = "Exit status: 0 the document was written; 2 a usage or spec error, or the scan is\nincomplete (the document, when written, says so).\n\nExample:\n  tauscan report firmware/ --out smoothers.html"
+    )]
     Report {
         #[command(flatten)]
         scan: ScanArgs,
@@ -151,6 +160,9 @@ enum Command {
         out: PathBuf,
     },
     /// Record today's findings in a baseline file, for `check --baseline`.
+    #[command(
+        after_help = "Exit status: 0 the baseline was written; 2 a usage or spec error, or the scan is\nincomplete (then nothing is written).\n\nExample:\n  tauscan baseline firmware/ -o tauscan-baseline.json"
+    )]
     Baseline {
         #[command(flatten)]
         scan: ScanArgs,
@@ -162,6 +174,9 @@ enum Command {
         output: PathBuf,
     },
     /// Compare the smoothers at a git revision with the work tree (or REV..REV2).
+    #[command(
+        after_help = "Exit status: 0 the comparison was made (changes or none); 2 a usage error, a revision\ngit does not know, or a side whose scan is incomplete.\n\nExample:\n  tauscan diff origin/main firmware/ --format markdown"
+    )]
     Diff {
         /// The revision to compare from, or FROM..TO.
         revisions: String,
@@ -175,6 +190,9 @@ enum Command {
         output: Option<PathBuf>,
     },
     /// Print a rule's documentation (`tauscan explain --list` lists the rules).
+    #[command(
+        after_help = "Exit status: 0 printed; 2 no such rule.\n\nExample:\n  tauscan explain integer-dead-band"
+    )]
     Explain {
         /// The rule id, e.g. integer-dead-band.
         rule: Option<String>,
@@ -183,6 +201,9 @@ enum Command {
         list: bool,
     },
     /// Write a starter spec that holds every smoother to its present figures.
+    #[command(
+        after_help = "Exit status: 0 the spec was written; 2 a usage error, a spec already there (without\n--force), or the scan is incomplete.\n\nExample:\n  tauscan init firmware/ --tolerance 10"
+    )]
     Init {
         #[command(flatten)]
         scan: ScanArgs,

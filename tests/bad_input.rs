@@ -808,3 +808,17 @@ fn each_command_offers_only_the_formats_it_writes() {
         }
     }
 }
+
+#[test]
+fn every_command_help_gives_its_exit_statuses_and_an_example() {
+    let dir = tempfile::tempdir().unwrap();
+    for command in [
+        "list", "check", "report", "baseline", "diff", "explain", "init",
+    ] {
+        let help = tauscan_in(dir.path(), &[command, "--help"], LIMIT);
+        help.assert_exit(0, "help is no error");
+        let text = String::from_utf8_lossy(&help.stdout).to_string();
+        assert!(text.contains("Exit status: 0"), "{command}:\n{text}");
+        assert!(text.contains("Example:\n  tauscan "), "{command}:\n{text}");
+    }
+}
