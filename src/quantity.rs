@@ -39,16 +39,16 @@ fn split_number(text: &str) -> Option<(f64, String)> {
     Some((value, t[end..].trim().to_string()))
 }
 
-/// A rate: a frequency (`Hz`, `kHz`, `MHz`; a bare number is Hz) or a period (`s`, `ms`,
-/// `us`), which is turned into its frequency.
+/// A rate: a frequency (`Hz`, `kHz`, `MHz`) or a period (`s`, `ms`, `us`), which is turned
+/// into its frequency. A bare number is refused: `10` could be 10 Hz or a 10 ms period.
 pub fn parse_rate(text: &str) -> Result<Hertz, QuantityError> {
     let err = || QuantityError {
         text: text.to_string(),
-        expected: "a rate such as \"1 kHz\", \"500 Hz\" or \"2 ms\"",
+        expected: "a rate with its unit, such as \"1 kHz\", \"500 Hz\" or \"2 ms\"",
     };
     let (value, unit) = split_number(text).ok_or_else(err)?;
     let hz = match unit.to_ascii_lowercase().as_str() {
-        "" | "hz" => value,
+        "hz" => value,
         "khz" => value * 1e3,
         "mhz" if unit.starts_with('M') => value * 1e6,
         "s" | "sec" => 1.0 / value,
@@ -168,7 +168,8 @@ mod tests {
         assert_eq!(parse_rate("1kHz"), Ok(Hertz(1000.0)));
         assert_eq!(parse_rate("1 kHz"), Ok(Hertz(1000.0)));
         assert_eq!(parse_rate("500 Hz"), Ok(Hertz(500.0)));
-        assert_eq!(parse_rate("500"), Ok(Hertz(500.0)));
+        // A bare number has no unit to say whether it is a rate or a period.
+        assert!(parse_rate("500").is_err());
         assert_eq!(parse_rate("2 ms"), Ok(Hertz(500.0)));
         assert_eq!(parse_rate("2.5e3 Hz"), Ok(Hertz(2500.0)));
         assert!(parse_rate("fast").is_err());

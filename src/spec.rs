@@ -949,6 +949,13 @@ rules:
         );
         assert!(from_str("rates:\n  - { constant: X, unit: furlongs }\n").is_err());
         assert!(from_str("rates:\n  - { constant: X, rate: \"1 kHz\" }\n").is_err());
+        // A bare number could be a rate or a period: it needs its unit.
+        let bare = from_str("rates:\n  - { function: f, rate: 10 }\n");
+        assert!(
+            bare.as_ref()
+                .is_err_and(|e| e.to_string().contains("with its unit")),
+            "{bare:?}"
+        );
     }
 
     #[test]
