@@ -15,23 +15,43 @@ pub const RULE: RuleInfo = RuleInfo {
 fn check(ctx: &Context, out: &mut Vec<Finding>) {
     // A rate for an entry function that is not in the code: a renamed interrupt would
     // otherwise lose its rate without a word.
+    // A rate by constant that no smoother's coefficient is derived from: a renamed
+    // `LOOP_DT` would otherwise leave every smoother without the rate it declares.
     for rate in &ctx.spec.rates {
-        let crate::spec::RateScope::Function(name) = &rate.scope else {
-            continue;
+        let (message, help) = match &rate.scope {
+            crate::spec::RateScope::Function(name) => {
+                if !ctx.scan.program.functions_named(name).is_empty() {
+                    continue;
+                }
+                (
+                    format!("the rate entry for function `{name}` names no function in the scanned code"),
+                    "update the entry if the function was renamed, or remove it",
+                )
+            }
+            crate::spec::RateScope::Constant { name, .. } => {
+                let used = ctx.scan.recognition.smoothers.iter().any(|s| {
+                    s.chain
+                        .iter()
+                        .any(|c| c.name.as_deref() == Some(name.as_str()))
+                });
+                if used {
+                    continue;
+                }
+                (
+                    format!("the rate entry for constant `{name}` matches no smoother: no coefficient is derived from it"),
+                    "update the entry if the constant was renamed, or remove it",
+                )
+            }
+            crate::spec::RateScope::Path(_) => continue,
         };
-        if !ctx.scan.program.functions_named(name).is_empty() {
-            continue;
-        }
         out.push(Finding {
             rule: RULE.id,
             severity: RULE.severity,
             span: None,
             spec_line: Some(rate.line),
             labels: Vec::new(),
-            message: format!(
-                "the rate entry for function `{name}` names no function in the scanned code"
-            ),
-            help: Some("update the entry if the function was renamed, or remove it".into()),
+            message,
+            help: Some(help.into()),
             smoother: None,
             suppressed: None,
             baselined: false,
