@@ -91,8 +91,13 @@ impl FindingLine {
 /// The verdict of one smoother against the spec.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Verdict {
-    /// No finding counts against it; `requirements` says whether the spec asked anything.
+    /// No finding counts against it and the spec asked something of it.
     Pass { requirements: bool },
+    /// The spec asks nothing of it: no verdict, not a pass.
+    NoRequirement,
+    /// The spec asks something, but the coefficient is unknown, so no figure could be held
+    /// against it: not a pass.
+    NotEvaluated,
     /// These rules fired (each once, in the order of the findings), the worst severity first.
     Fired {
         rules: Vec<&'static str>,
@@ -107,10 +112,9 @@ impl Verdict {
     /// The verdict in words: `pass`, or the rule ids that fired.
     pub fn text(&self) -> String {
         match self {
-            Verdict::Pass { requirements: true } => "pass".into(),
-            Verdict::Pass {
-                requirements: false,
-            } => "pass (no requirement in the spec)".into(),
+            Verdict::Pass { .. } => "pass".into(),
+            Verdict::NoRequirement => "no requirement".into(),
+            Verdict::NotEvaluated => "not evaluated (coefficient unknown)".into(),
             Verdict::Fired { rules, .. } => rules.join(", "),
             Verdict::Instances { count: 1 } => "judged at its one instance".into(),
             Verdict::Instances { count } => format!("judged at each of its {count} instances"),
@@ -262,11 +266,13 @@ fn finding_line(scan: &Scan, f: &Finding) -> FindingLine {
     }
 }
 
-fn verdict(findings: &[FindingLine], requirements: &Requirements) -> Verdict {
+fn verdict(findings: &[FindingLine], requirements: &Requirements, evaluated: bool) -> Verdict {
     let counting: Vec<&FindingLine> = findings.iter().filter(|f| f.counts()).collect();
     let Some(worst) = counting.iter().map(|f| f.severity).max() else {
-        return Verdict::Pass {
-            requirements: !requirements.is_empty(),
+        return match (requirements.is_empty(), evaluated) {
+            (true, _) => Verdict::NoRequirement,
+            (false, false) => Verdict::NotEvaluated,
+            (false, true) => Verdict::Pass { requirements: true },
         };
     };
     let mut rules: Vec<&'static str> = Vec::new();
@@ -516,7 +522,7 @@ pub fn build(
                     count: s.instance_count,
                 }
             } else {
-                verdict(&findings, &requirements)
+                verdict(&findings, &requirements, s.alpha.value().is_some())
             },
             findings,
             requirements,
@@ -672,13 +678,18 @@ mod tests {
             line("lag-over-requirement", Severity::Error, Some("known")),
         ];
         assert_eq!(
-            verdict(&findings, &some).text(),
+            verdict(&findings, &some, true).text(),
             "cutoff-outside-requirement, integer-dead-band"
         );
-        assert_eq!(verdict(&findings[2..], &some).text(), "pass");
+        assert_eq!(verdict(&findings[2..], &some, true).text(), "pass");
+        // Neither asking nothing nor knowing nothing is a pass.
         assert_eq!(
-            verdict(&[], &Requirements::default()).text(),
-            "pass (no requirement in the spec)"
+            verdict(&[], &Requirements::default(), true).text(),
+            "no requirement"
+        );
+        assert_eq!(
+            verdict(&findings[2..], &some, false).text(),
+            "not evaluated (coefficient unknown)"
         );
     }
 }

@@ -114,7 +114,9 @@ fn verdict_html(v: &Verdict) -> String {
     let class = match v {
         Verdict::Pass { .. } => "verdict-pass",
         Verdict::Fired { worst, .. } => severity_class(*worst),
-        Verdict::Instances { .. } => "verdict-neutral",
+        Verdict::Instances { .. } | Verdict::NoRequirement | Verdict::NotEvaluated => {
+            "verdict-neutral"
+        }
     };
     format!("<span class=\"{class}\">{}</span>", escape(&v.text()))
 }
