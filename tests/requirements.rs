@@ -334,3 +334,59 @@ fn the_dead_band_maximum_passes_at_the_band_and_fails_one_count_below() {
         &format!("      max_dead_band: \"{} counts\"\n", widest - 1),
     );
 }
+
+#[test]
+fn an_overflow_that_only_the_whole_of_int_would_reach_is_a_note_asking_for_the_range() {
+    // Source: C11 6.5p5 (signed overflow) — `y * 15` passes INT_MAX only for states above
+    // INT_MAX / 15, which an `int` reading is not known to reach without a declared range.
+    let dir = tempfile::tempdir().unwrap();
+    common::write(
+        dir.path(),
+        "volt.c",
+        "static int mv;\nvoid volt_sample(int raw) { mv = (mv * 15 + raw) / 16; }\n",
+    );
+    let run = common::tauscan_in(
+        dir.path(),
+        &["check", ".", "--format", "json"],
+        common::LIMIT,
+    );
+    run.assert_exit(0, "a note does not fail the gate");
+    let json = run.json();
+    let overflow: Vec<&Value> = json["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["rule"] == "integer-overflow")
+        .collect();
+    assert_eq!(overflow.len(), 1, "{}", run.context());
+    assert_eq!(overflow[0]["severity"], "note");
+    assert!(
+        overflow[0]["message"]
+            .as_str()
+            .unwrap()
+            .contains("input.range"),
+        "{}",
+        overflow[0]
+    );
+    // With the range declared, 4095 * 15 + 4095 fits an `int`: nothing to say.
+    common::write(
+        dir.path(),
+        "tauscan.yaml",
+        "smoothers:\n  - match: { function: volt_sample }\n    input: { range: [0, 4095] }\n",
+    );
+    let run = common::tauscan_in(
+        dir.path(),
+        &["check", ".", "--format", "json"],
+        common::LIMIT,
+    );
+    let json = run.json();
+    assert!(
+        !json["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|f| f["rule"] == "integer-overflow"),
+        "{}",
+        run.context()
+    );
+}

@@ -521,7 +521,25 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
         let Some(found) = overflow(update, &names_of(s), range) else {
             continue;
         };
-        let mut finding = Finding::at(&RULE, i, s, found.message);
+        // With no range in the spec and only plain `int` to go by, the whole of `int` is
+        // an assumption, not a reading: a note that asks for the range, not an error.
+        let fixed_width = std::iter::once(&update.state_type)
+            .chain(update.input_types.iter())
+            .any(|t| matches!(t, CType::FixedInt(_)));
+        let assumed = !range.from_spec && !fixed_width;
+        let message = if assumed {
+            format!(
+                "{} (assuming inputs over the whole of `int`: the spec gives no \
+                 `input.range` and no fixed-width type bounds them)",
+                found.message
+            )
+        } else {
+            found.message
+        };
+        let mut finding = Finding::at(&RULE, i, s, message);
+        if assumed {
+            finding.severity = crate::spec::Severity::Note;
+        }
         finding.help = Some(found.help);
         out.push(finding);
     }
