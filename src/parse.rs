@@ -630,10 +630,22 @@ fn variable_casts_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree)>
 /// The number of error and missing nodes in a tree (subtrees without errors are skipped).
 fn error_count(tree: &Tree) -> usize {
     let mut count = 0;
+    for_each_error(tree, &mut |_| {
+        count += 1;
+        true
+    });
+    count
+}
+
+/// Calls `visit` on each error and missing node of a tree, in no set order, until it
+/// returns false; subtrees without errors are skipped.
+fn for_each_error(tree: &Tree, visit: &mut dyn FnMut(Node) -> bool) {
     let mut stack = vec![tree.root_node()];
     while let Some(node) = stack.pop() {
         if node.is_error() || node.is_missing() {
-            count += 1;
+            if !visit(node) {
+                return;
+            }
             continue;
         }
         if !node.has_error() {
@@ -642,7 +654,6 @@ fn error_count(tree: &Tree) -> usize {
         let mut cursor = node.walk();
         stack.extend(node.children(&mut cursor));
     }
-    count
 }
 
 /// The file with each function body that holds a parse error read through the first
@@ -650,24 +661,11 @@ fn error_count(tree: &Tree) -> usize {
 /// branches blanked, every line kept), its tree, and the offsets of the groups read so,
 /// when that has fewer errors than `tree`.
 fn first_branches_variant(source: &[u8], tree: &Tree) -> Option<(Vec<u8>, Tree, Vec<usize>)> {
-    let errors: Vec<usize> = {
-        let mut out = Vec::new();
-        let mut stack = vec![tree.root_node()];
-        while let Some(node) = stack.pop() {
-            if out.len() > 4096 {
-                break;
-            }
-            if node.is_error() || node.is_missing() {
-                out.push(node.start_byte());
-                continue;
-            }
-            if node.has_error() {
-                let mut cursor = node.walk();
-                stack.extend(node.children(&mut cursor));
-            }
-        }
-        out
-    };
+    let mut errors: Vec<usize> = Vec::new();
+    for_each_error(tree, &mut |node| {
+        errors.push(node.start_byte());
+        errors.len() <= 4096
+    });
     let regions: Vec<std::ops::Range<usize>> = function_regions(source)
         .into_iter()
         .map(|(r, _)| r)

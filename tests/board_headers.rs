@@ -23,14 +23,11 @@
 )]
 
 mod common;
+use common::crate_root;
 
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 use std::process::Command;
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
 
 /// The two fixtures: the shared header found through the include path, or by a path
 /// relative to the including file.

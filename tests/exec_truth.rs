@@ -23,11 +23,12 @@
 use serde_json::Value;
 use std::collections::BTreeSet;
 use std::fmt::Write as _;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::Command;
 use std::sync::OnceLock;
 
 mod common;
+use common::crate_root;
 
 /// What one driven case did when it ran, as printed by `drive_main.c`.
 #[derive(Debug, Clone)]
@@ -70,10 +71,6 @@ impl Executed {
     fn label(&self) -> String {
         format!("{}: {} / {}", self.file, self.function, self.state)
     }
-}
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
 fn c_compiler() -> String {

@@ -14,15 +14,11 @@
 )]
 
 mod common;
+use common::crate_root;
 
 use serde_json::Value;
 use std::collections::BTreeMap;
-use std::path::PathBuf;
 use std::sync::OnceLock;
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
 
 /// The JSON of one `tauscan list` over `fixtures/instances`, run once for all tests.
 fn scan() -> &'static Value {

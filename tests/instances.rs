@@ -13,14 +13,10 @@
 )]
 
 use serde_json::Value;
-use std::path::PathBuf;
 use std::process::Command;
 
 mod common;
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
+use common::crate_root;
 
 /// The records tauscan gives for one fixture of `fixtures/forms`.
 fn records_of(fixture: &str) -> Vec<Value> {

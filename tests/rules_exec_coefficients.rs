@@ -22,14 +22,10 @@
 
 use serde_json::Value;
 use std::collections::BTreeMap;
-use std::path::PathBuf;
 use std::process::Command;
 
 mod common;
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
+use common::crate_root;
 
 fn c_compiler() -> String {
     std::env::var("CC").unwrap_or_else(|_| "cc".to_string())

@@ -15,10 +15,10 @@
 )]
 
 use serde_json::Value;
-use std::path::PathBuf;
 use std::process::Command;
 
 mod common;
+use common::crate_root;
 
 const OPTION: &str = "FERMENTER_FAST_PH";
 
@@ -27,10 +27,6 @@ const CASES: [(&str, &str, &str); 2] = [
     ("ferm_ph_sample", "ferm_ph", "FERM_PH_ALPHA"),
     ("ferm_temp_sample", "g_ferm_vessel_cdeg", "FERM_TEMP_SHIFT"),
 ];
-
-fn crate_root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
 
 /// What the driver printed for one case.
 #[derive(Debug)]

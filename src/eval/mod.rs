@@ -724,21 +724,7 @@ impl<'p> Evaluator<'p> {
                     let Some(position) = fields.iter().position(|f| f.name == field) else {
                         return Err(Unknown::new(format!("no field `{field}` in `{name}`")));
                     };
-                    let mut at = 0;
-                    let mut found = None;
-                    for (designator, member) in members {
-                        let this = match designator {
-                            Some(d) => fields
-                                .iter()
-                                .position(|f| &f.name == d)
-                                .unwrap_or(usize::MAX),
-                            None => at,
-                        };
-                        at = this.saturating_add(1);
-                        if this == position {
-                            found = Some(member);
-                        }
-                    }
+                    let found = struct_member(&fields, members, position);
                     let ty = ev.program.resolve_type(&fields[position].ty);
                     match found {
                         Some(m) => m,
@@ -1067,26 +1053,15 @@ impl<'p> Evaluator<'p> {
         };
         let fields = self.program.struct_fields(&global.ty)?.to_vec();
         let position = fields.iter().position(|f| f.name == field)?;
-        let mut index = 0;
-        for (designator, item) in items {
-            let this = match designator {
-                Some(name) => fields.iter().position(|f| &f.name == name)?,
-                None => index,
-            };
-            index = this + 1;
-            if this == position {
-                if let Initializer::Expr(e) = item {
-                    self.record(
-                        global.span.file,
-                        global.span.line,
-                        format!("{} {} = {{ .{field} = {e} }}", global.ty, global.name),
-                    );
-                    return Some(self.eval(e, &Scope::default()));
-                }
-                return None;
-            }
-        }
-        None
+        let Initializer::Expr(e) = struct_member(&fields, items, position)? else {
+            return None;
+        };
+        self.record(
+            global.span.file,
+            global.span.line,
+            format!("{} {} = {{ .{field} = {e} }}", global.ty, global.name),
+        );
+        Some(self.eval(e, &Scope::default()))
     }
 
     /// The declared type of a place, where the index can tell it.
@@ -1481,6 +1456,28 @@ pub fn local_type(function: &Function, name: &str) -> Option<CType> {
     let mut found = None;
     find_local_decl(&function.body, name, &mut found);
     found.map(|d| d.ty)
+}
+
+/// The item of a braced struct initialiser that sets the field at `position` of `fields`:
+/// by its designator (`.k = ...`) or by its place in the list. None when no item sets it,
+/// or a designator names no field.
+fn struct_member<'a>(
+    fields: &[Param],
+    items: &'a [(Option<String>, Initializer)],
+    position: usize,
+) -> Option<&'a Initializer> {
+    let mut index = 0;
+    for (designator, item) in items {
+        let this = match designator {
+            Some(name) => fields.iter().position(|f| &f.name == name)?,
+            None => index,
+        };
+        index = this + 1;
+        if this == position {
+            return Some(item);
+        }
+    }
+    None
 }
 
 /// The declaration of a local variable in a function body.

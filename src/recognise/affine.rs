@@ -70,6 +70,17 @@ pub struct Affine {
 }
 
 impl Affine {
+    /// The atoms of alpha and of the input weights (the coefficient's atoms), once each.
+    pub fn weight_atoms(&self) -> Vec<AtomId> {
+        let mut all: Vec<AtomId> = self.alpha.atoms();
+        for (_, w) in &self.inputs {
+            all.extend(w.atoms());
+        }
+        all.sort_unstable();
+        all.dedup();
+        all
+    }
+
     /// The graph values an atom is made of (a product's factors, a shift's count).
     pub fn values_of(&self, a: AtomId) -> Vec<V> {
         match self.atoms.get(a as usize) {

@@ -225,11 +225,7 @@ pub fn hands_to_callers(program: &Program, f: FuncRef, w: &WalkResult, i: usize)
     {
         return hand(true);
     }
-    let mut weight_atoms = aff.alpha.atoms();
-    for (_, wp) in &aff.inputs {
-        weight_atoms.extend(wp.atoms());
-    }
-    let per_object = weight_atoms.iter().any(|a| {
+    let per_object = aff.weight_atoms().iter().any(|a| {
         aff.values_of(*a)
             .into_iter()
             .any(|v| g.spelled_with(v, &|x| x == root_value, walk::REACH_LIMIT))

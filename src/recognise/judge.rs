@@ -52,13 +52,7 @@ impl Reading<'_> {
 
     /// The atoms the weights (alpha and the input weights) are made of.
     pub fn weight_atoms(&self) -> Vec<AtomId> {
-        let mut all: Vec<AtomId> = self.affine.alpha.atoms();
-        for (_, w) in &self.affine.inputs {
-            all.extend(w.atoms());
-        }
-        all.sort_unstable();
-        all.dedup();
-        all
+        self.affine.weight_atoms()
     }
 
     pub fn function(&self) -> Option<FuncRef> {
@@ -350,11 +344,7 @@ fn atom_values_checked(
 
 /// Whether every atom of alpha and of the input weights has a finite value.
 fn weights_known(aff: &Affine, values: &[f64]) -> bool {
-    let mut atoms: Vec<AtomId> = aff.alpha.atoms();
-    for (_, w) in &aff.inputs {
-        atoms.extend(w.atoms());
-    }
-    atoms
+    aff.weight_atoms()
         .iter()
         .all(|a| values.get(*a as usize).is_some_and(|v| v.is_finite()))
 }
@@ -468,10 +458,7 @@ pub fn judge_explained(
         chain: std::mem::take(&mut evaluator.chain),
         state_type,
     };
-    let weight_atoms = reading.weight_atoms();
-    reading.known = weight_atoms
-        .iter()
-        .all(|a| reading.values[*a as usize].is_finite());
+    reading.known = weights_known(&reading.affine, &reading.values);
     if reading.known {
         let (alpha, input_weight) = alpha_of(&reading.affine, &reading.values);
         reading.alpha = alpha;

@@ -766,14 +766,13 @@ impl Graph {
         )
     }
 
-    /// The root name of a place (`f` in `f->y[2]`), with whether it is a local object.
-    pub fn place_root(&self, v: V) -> Option<(Sym, Home, bool)> {
+    /// The node a place is built on: the value left after stepping through fields,
+    /// indexes, dereferences, addresses, casts, pointer offsets and the locals and stores
+    /// that hold them (at most 256 steps).
+    fn place_base(&self, v: V) -> Option<V> {
         let mut v = v;
         for _ in 0..256 {
             match self.node(v) {
-                Node::Name { name, home } => return Some((*name, *home, false)),
-                Node::LocalObject { name, home } => return Some((*name, *home, true)),
-                Node::Opaque { name, home, .. } => return Some((*name, *home, true)),
                 Node::Field { base, .. } | Node::Index { base, .. } | Node::Deref(base) => {
                     v = *base
                 }
@@ -781,30 +780,30 @@ impl Graph {
                 Node::Local { value, .. } | Node::Stored { value, .. } => v = *value,
                 Node::Version { place, .. } => v = *place,
                 Node::Binary(BinaryOp::Add | BinaryOp::Sub, a, _) => v = *a,
-                _ => return None,
+                _ => return Some(v),
             }
         }
         None
     }
 
+    /// The root name of a place (`f` in `f->y[2]`), with whether it is a local object.
+    pub fn place_root(&self, v: V) -> Option<(Sym, Home, bool)> {
+        match self.node(self.place_base(v)?) {
+            Node::Name { name, home } => Some((*name, *home, false)),
+            Node::LocalObject { name, home } | Node::Opaque { name, home, .. } => {
+                Some((*name, *home, true))
+            }
+            _ => None,
+        }
+    }
+
     /// The callee whose returned pointer a place is reached through (`get_zone(i)->level`),
     /// if its base is a call rather than a variable.
     pub fn place_call_root(&self, v: V) -> Option<Sym> {
-        let mut v = v;
-        for _ in 0..256 {
-            match self.node(v) {
-                Node::Call { callee, .. } => return Some(*callee),
-                Node::Field { base, .. } | Node::Index { base, .. } | Node::Deref(base) => {
-                    v = *base
-                }
-                Node::AddrOf(a) | Node::Cast(_, a) => v = *a,
-                Node::Local { value, .. } | Node::Stored { value, .. } => v = *value,
-                Node::Version { place, .. } => v = *place,
-                Node::Binary(BinaryOp::Add | BinaryOp::Sub, a, _) => v = *a,
-                _ => return None,
-            }
+        match self.node(self.place_base(v)?) {
+            Node::Call { callee, .. } => Some(*callee),
+            _ => None,
         }
-        None
     }
 
     /// The value as C text, at most about `limit` bytes (longer text ends in `…`). Locals

@@ -299,6 +299,11 @@ pub fn listing(dir: &Path) -> Vec<String> {
 }
 
 /// A folder under `fixtures/`.
+/// The crate's own folder (where `fixtures/` and `tests/` are).
+pub fn crate_root() -> std::path::PathBuf {
+    std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
 pub fn fixture(name: &str) -> std::path::PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("fixtures")
