@@ -8,7 +8,7 @@
 use crate::context::{propagate, RateInfo, RateKind};
 use crate::rules::{self, Context, EffectiveRate, Finding};
 use crate::scan::Scan;
-use crate::spec::{Input, Matcher, Requirements, Spec};
+use crate::spec::{Assume, Input, Matcher, Requirements, Spec};
 
 pub struct CheckResult {
     pub ids: Vec<String>,
@@ -81,16 +81,47 @@ fn constant_rate(spec: &Spec, s: &crate::recognise::Smoother) -> Option<(f64, St
     None
 }
 
+/// A spec rate as the smoother's rate: in Hz (or per event), with the way it came.
+fn spec_rate(reach: &propagate::Reach) -> RateInfo {
+    // The call that carries the rate into the update's function; the entry itself when
+    // the update is in it.
+    RateInfo {
+        hz: reach.hz,
+        kind: if reach.hz.is_some() {
+            RateKind::Spec
+        } else {
+            RateKind::Event
+        },
+        source: Some(reach.source.clone()),
+        span: reach.path.last().map(|step| crate::ir::Span {
+            file: step.file,
+            line: step.line,
+            column: 1,
+            ..crate::ir::Span::default()
+        }),
+        path: reach.path.clone(),
+        ..RateInfo::unknown()
+    }
+}
+
 /// Applies the spec's rates to the smoothers and computes their figures again.
 fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
-    let reached = propagate::rates(&scan.program, spec);
+    let propagation = propagate::rates(&scan.program, spec);
     let mut effective = Vec::new();
     for s in &mut scan.recognition.smoothers {
         let from_spec = s
             .function_ref
-            .and_then(|f| reached.get(&f))
+            .and_then(|f| propagation.reached.get(&f))
             .cloned()
             .unwrap_or_default();
+        let partial = s
+            .function_ref
+            .and_then(|f| propagation.partial.get(&f))
+            .cloned();
+        let indirect = s
+            .function_ref
+            .and_then(|f| propagation.indirect.get(&f))
+            .cloned();
         match from_spec.as_slice() {
             [] => {
                 // A constant the spec declares as a rate, found in the derivation.
@@ -101,28 +132,14 @@ fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
                             hz: Some(hz),
                             kind: RateKind::Spec,
                             source: Some(source),
-                            span: None,
-                            conflicts: Vec::new(),
+                            ..RateInfo::unknown()
                         },
                     );
                     s.code_rate = Some(code);
                 }
             }
             [one] => {
-                let code = std::mem::replace(
-                    &mut s.rate,
-                    RateInfo {
-                        hz: one.hz,
-                        kind: if one.hz.is_some() {
-                            RateKind::Spec
-                        } else {
-                            RateKind::Event
-                        },
-                        source: Some(one.source.clone()),
-                        span: None,
-                        conflicts: Vec::new(),
-                    },
-                );
+                let code = std::mem::replace(&mut s.rate, spec_rate(one));
                 s.code_rate = Some(code);
             }
             _ => {
@@ -131,20 +148,89 @@ fn apply_rates(scan: &mut Scan, spec: &Spec) -> Vec<EffectiveRate> {
                 s.rate.source = Some("reached from entries of different rates".into());
             }
         }
-        effective.push(EffectiveRate { from_spec });
+        if let Some(d) = &partial {
+            s.rate.doubts.push(format!("partial rate: {}", d.text));
+        }
+        if let Some(d) = &indirect {
+            s.rate.doubts.push(format!(
+                "the rate may come through an indirect call: {}",
+                d.text
+            ));
+        }
+        effective.push(EffectiveRate {
+            from_spec,
+            partial,
+            indirect,
+        });
     }
     scan.figures = crate::figures::for_all(&scan.recognition.smoothers);
     effective
 }
 
-/// Runs the gate.
-pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
+/// The coefficient and window the first matching entries state (`assume`), each from the
+/// first entry that states it.
+fn first_assume(spec: &Spec, entries: &[usize]) -> Assume {
+    let mut assume = Assume::default();
+    for &e in entries {
+        let a = spec.smoothers[e].assume;
+        assume.alpha = assume.alpha.or(a.alpha);
+        assume.window = assume.window.or(a.window);
+    }
+    assume
+}
+
+/// Puts the spec's stated coefficient or window in where the code does not show one. A
+/// value the code does show is kept: the spec never overrides what the C says. Returns
+/// whether anything changed.
+fn apply_assumes(smoothers: &mut [crate::recognise::Smoother], assumes: &[Assume]) -> bool {
+    use crate::recognise::{Coefficient, Form};
+    let mut changed = false;
+    for (s, a) in smoothers.iter_mut().zip(assumes) {
+        match s.form {
+            Form::MovingAverage => {
+                if let (None, Some(w)) = (s.window, a.window) {
+                    s.window = Some(w);
+                    s.alpha = Coefficient::Known(1.0 / f64::from(w));
+                    s.assumed = true;
+                    changed = true;
+                }
+            }
+            Form::Ema | Form::ScaledState => {
+                if let (false, Some(alpha)) = (matches!(s.alpha, Coefficient::Known(_)), a.alpha) {
+                    s.alpha = Coefficient::Known(alpha);
+                    s.assumed = true;
+                    changed = true;
+                }
+            }
+        }
+    }
+    changed
+}
+
+/// A scan with the spec applied: its rates carried to the updates, its stated
+/// coefficients put in where the code shows none, each smoother matched to its entries.
+/// `list` and `report` show this; `check` holds it against the requirements.
+pub struct Applied {
+    pub ids: Vec<String>,
+    /// Spec entries (indexes into `spec.smoothers`) matching each smoother.
+    pub matched: Vec<Vec<usize>>,
+    /// Each smoother's requirements: its entries' merged over the defaults.
+    pub requirements: Vec<Requirements>,
+    pub inputs: Vec<Input>,
+    pub rates: Vec<EffectiveRate>,
+    pub tags: Vec<Vec<String>>,
+}
+
+/// Applies the spec to the scan: rates, `assume`, matching. The figures are computed
+/// again at the rates and with the coefficients that result.
+pub fn apply(scan: &mut Scan, spec: &Spec) -> Applied {
     let rates = apply_rates(scan, spec);
     let ids = scan.ids();
     let n = scan.recognition.smoothers.len();
     let mut matched = vec![Vec::new(); n];
     let mut requirements = vec![Requirements::default(); n];
     let mut inputs = vec![Input::default(); n];
+    let mut assumes = Vec::with_capacity(n);
     let mut tags = Vec::with_capacity(n);
     for i in 0..n {
         tags.push(tags_of(scan, i));
@@ -173,26 +259,43 @@ pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
             }
         }
         requirements[i] = req.or(&spec.defaults);
+        assumes.push(first_assume(spec, &matched[i]));
         inputs[i] = Input {
             range: input.range.or(spec.default_input.range),
             per_count: input.per_count.or(spec.default_input.per_count),
             unit: input.unit.or_else(|| spec.default_input.unit.clone()),
         };
     }
-    let ctx = Context {
-        scan,
-        spec,
-        ids: &ids,
+    if apply_assumes(&mut scan.recognition.smoothers, &assumes) {
+        scan.figures = crate::figures::for_all(&scan.recognition.smoothers);
+    }
+    Applied {
+        ids,
         matched,
-        requirements: requirements.clone(),
+        requirements,
         inputs,
         rates,
         tags,
+    }
+}
+
+/// Runs the gate.
+pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
+    let applied = apply(scan, spec);
+    let ctx = Context {
+        scan,
+        spec,
+        ids: &applied.ids,
+        matched: applied.matched,
+        requirements: applied.requirements.clone(),
+        inputs: applied.inputs,
+        rates: applied.rates,
+        tags: applied.tags,
     };
     let findings = rules::run(&ctx);
     CheckResult {
-        ids,
+        ids: applied.ids,
         findings,
-        requirements,
+        requirements: applied.requirements,
     }
 }

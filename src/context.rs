@@ -36,6 +36,34 @@ impl RateKind {
     }
 }
 
+/// One step of the way a rate reaches an update: the entry function (at its definition),
+/// then each call (at the call) down to the function that holds the update.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RateStep {
+    pub function: String,
+    pub file: crate::ir::FileId,
+    pub line: u32,
+    /// The call is through a function pointer.
+    pub indirect: bool,
+}
+
+/// A rate's way in words: "pwm_isr -> coolant_sample, tasks.c:22" (the entry, each
+/// function called, and the place of the last call, or of the entry when the update is in
+/// it). A call through a pointer is marked `~>`.
+pub fn path_text(program: &crate::index::Program, path: &[RateStep]) -> String {
+    let mut text = String::new();
+    for (i, step) in path.iter().enumerate() {
+        if i > 0 {
+            text.push_str(if step.indirect { " ~> " } else { " -> " });
+        }
+        text.push_str(&step.function);
+    }
+    if let Some(last) = path.last() {
+        text.push_str(&format!(", {}:{}", program.path(last.file), last.line));
+    }
+    text
+}
+
 #[derive(Debug, Clone, PartialEq)]
 pub struct RateInfo {
     pub hz: Option<f64>,
@@ -45,6 +73,11 @@ pub struct RateInfo {
     pub span: Option<Span>,
     /// Other rates found in the same derivation that disagree with the first.
     pub conflicts: Vec<(f64, String)>,
+    /// For a rate carried from an entry function: the way it came.
+    pub path: Vec<RateStep>,
+    /// What may make the rate another one (a caller no rate reaches, an unresolved call
+    /// through a pointer), in words.
+    pub doubts: Vec<String>,
 }
 
 impl RateInfo {
@@ -55,6 +88,8 @@ impl RateInfo {
             source: None,
             span: None,
             conflicts: Vec::new(),
+            path: Vec::new(),
+            doubts: Vec::new(),
         }
     }
 }
@@ -225,6 +260,8 @@ pub fn rate_of(chain: &[ChainStep], alpha: &Coefficient, default_hz: Option<f64>
             )),
             span: None,
             conflicts: Vec::new(),
+            path: Vec::new(),
+            doubts: Vec::new(),
         };
     }
     // Every rate the derivation mentions; a definition (`#define`, a constant) is the
@@ -266,6 +303,8 @@ pub fn rate_of(chain: &[ChainStep], alpha: &Coefficient, default_hz: Option<f64>
                 ..Span::default()
             }),
             conflicts,
+            path: Vec::new(),
+            doubts: Vec::new(),
         }
     });
     if let Some(info) = found {
@@ -278,6 +317,8 @@ pub fn rate_of(chain: &[ChainStep], alpha: &Coefficient, default_hz: Option<f64>
             source: Some("--rate on the command line".into()),
             span: None,
             conflicts: Vec::new(),
+            path: Vec::new(),
+            doubts: Vec::new(),
         },
         None => RateInfo::unknown(),
     }
@@ -307,35 +348,74 @@ mod tests {
     }
 }
 
-/// Rates the spec declares, carried from entry functions down the call graph.
+/// Rates the spec declares, carried from entry functions down the call graph (direct calls
+/// and the calls through function pointers `callgraph` resolves), each with its path.
 pub mod propagate {
+    use super::RateStep;
+    use crate::callgraph::CallGraph;
     use crate::index::{FuncRef, Program};
+    use crate::ir::Span;
     use crate::spec::{RateScope, Spec};
-    use std::collections::{BTreeMap, VecDeque};
+    use std::collections::{BTreeMap, BTreeSet, VecDeque};
 
-    /// One rate that reaches a function: Hz (None for an event-driven entry) and the
-    /// entry it came from, in words.
+    /// One rate that reaches a function: Hz (None for an event-driven entry), the entry it
+    /// came from in words, and the calls it came through.
     #[derive(Debug, Clone, PartialEq)]
     pub struct Reach {
         pub hz: Option<f64>,
         pub source: String,
         /// Line of the spec entry.
         pub spec_line: usize,
+        /// The entry function first, then each call down to the function reached.
+        pub path: Vec<RateStep>,
     }
 
-    /// For every function reached by a spec rate, the distinct rates that reach it.
-    pub fn rates(program: &Program, spec: &Spec) -> BTreeMap<FuncRef, Vec<Reach>> {
-        let mut reached: BTreeMap<FuncRef, Vec<Reach>> = BTreeMap::new();
-        // The call graph, caller -> callees, by function.
-        let mut callees: BTreeMap<FuncRef, Vec<FuncRef>> = BTreeMap::new();
-        for call in program.calls() {
-            if let Some(callee) = program.resolve_call(call.caller, &call.callee) {
-                let list = callees.entry(call.caller).or_default();
-                if !list.contains(&callee) {
-                    list.push(callee);
-                }
-            }
+    /// A call that may bring another rate than the one a function was given.
+    #[derive(Debug, Clone, PartialEq)]
+    pub struct Doubt {
+        /// In words: "debug_dump() calls it at cli.c:40, and no rate entry reaches
+        /// debug_dump()".
+        pub text: String,
+        pub span: Span,
+    }
+
+    #[derive(Debug, Default)]
+    pub struct Propagation {
+        /// For every function reached by a spec rate, the distinct rates that reach it.
+        pub reached: BTreeMap<FuncRef, Vec<Reach>>,
+        /// Reached functions that are also called from a function no rate reaches.
+        pub partial: BTreeMap<FuncRef, Doubt>,
+        /// Functions below a function whose address is taken, where a call through a
+        /// pointer that tauscan could not resolve lies in a function a rate reaches.
+        pub indirect: BTreeMap<FuncRef, Doubt>,
+    }
+
+    fn step(program: &Program, f: FuncRef, span: Span, indirect: bool) -> RateStep {
+        RateStep {
+            function: program.function(f).name.clone(),
+            file: span.file,
+            line: span.line,
+            indirect,
         }
+    }
+
+    pub fn rates(program: &Program, spec: &Spec) -> Propagation {
+        let mut out = Propagation::default();
+        let by_function = spec
+            .rates
+            .iter()
+            .any(|r| !matches!(r.scope, RateScope::Constant { .. }));
+        if !by_function {
+            return out;
+        }
+        let graph = crate::callgraph::build(program);
+        let spec_name = spec
+            .path
+            .as_deref()
+            .and_then(|p| p.file_name())
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| crate::spec::FILE_NAME.to_string());
+        let mut starts_all = BTreeSet::new();
         for rate in &spec.rates {
             let starts: Vec<FuncRef> = match &rate.scope {
                 // Constants are applied per smoother (by its derivation), not by function.
@@ -353,38 +433,146 @@ pub mod propagate {
                         .collect()
                 }
             };
+            starts_all.extend(starts.iter().copied());
             let what = match &rate.scope {
                 RateScope::Function(name) => format!("{name}()"),
                 RateScope::Path(glob) => format!("files `{glob}`"),
                 RateScope::Constant { name, .. } => name.clone(),
             };
+            let entry = format!("{spec_name}:{}", rate.line);
             let source = match rate.rate {
                 Some(hz) => format!(
-                    "spec: {what} runs at {} Hz",
-                    crate::report::table::sig3(hz.0)
+                    "{entry}: {what} runs at {}",
+                    crate::report::table::hertz(hz.0)
                 ),
-                None => format!("spec: {what} runs per event"),
+                None => format!("{entry}: {what} runs per event"),
             };
-            let reach = Reach {
-                hz: rate.rate.map(|h| h.0),
-                source,
-                spec_line: rate.line,
-            };
-            let mut queue: VecDeque<FuncRef> = starts.into_iter().collect();
-            let mut visited = std::collections::BTreeSet::new();
+            // Breadth first, so each function's path is a shortest one.
+            let mut parent: BTreeMap<FuncRef, (FuncRef, Span, bool)> = BTreeMap::new();
+            let mut queue: VecDeque<FuncRef> = starts.iter().copied().collect();
+            let mut visited: BTreeSet<FuncRef> = starts.iter().copied().collect();
             while let Some(f) = queue.pop_front() {
-                if !visited.insert(f) {
-                    continue;
+                let list = out.reached.entry(f).or_default();
+                if !list.iter().any(|r| r.hz == rate.rate.map(|h| h.0)) {
+                    let mut path = Vec::new();
+                    let mut at = f;
+                    while let Some(&(caller, span, indirect)) = parent.get(&at) {
+                        path.push(step(program, at, span, indirect));
+                        at = caller;
+                        if path.len() > parent.len() {
+                            break;
+                        }
+                    }
+                    path.push(step(program, at, program.function(at).name_span, false));
+                    path.reverse();
+                    list.push(Reach {
+                        hz: rate.rate.map(|h| h.0),
+                        source: source.clone(),
+                        spec_line: rate.line,
+                        path,
+                    });
                 }
-                let list = reached.entry(f).or_default();
-                if !list.iter().any(|r| r.hz == reach.hz) {
-                    list.push(reach.clone());
-                }
-                for &next in callees.get(&f).map(Vec::as_slice).unwrap_or(&[]) {
-                    queue.push_back(next);
+                for edge in graph.callees.get(&f).map(Vec::as_slice).unwrap_or(&[]) {
+                    if visited.insert(edge.callee) {
+                        parent.insert(edge.callee, (f, edge.span, edge.indirect));
+                        queue.push_back(edge.callee);
+                    }
                 }
             }
         }
-        reached
+        out.partial = partial(program, &graph, &out.reached, &starts_all);
+        out.indirect = indirect(program, &graph, &out.reached);
+        out
+    }
+
+    /// Reached functions (not entries themselves) with a caller no rate reaches, directly
+    /// or through callers that are partial in turn.
+    fn partial(
+        program: &Program,
+        graph: &CallGraph,
+        reached: &BTreeMap<FuncRef, Vec<Reach>>,
+        starts: &BTreeSet<FuncRef>,
+    ) -> BTreeMap<FuncRef, Doubt> {
+        let mut doubts: BTreeMap<FuncRef, Doubt> = BTreeMap::new();
+        let mut queue: VecDeque<FuncRef> = VecDeque::new();
+        for &f in reached.keys() {
+            if starts.contains(&f) {
+                continue;
+            }
+            let outside = graph
+                .callers
+                .get(&f)
+                .into_iter()
+                .flatten()
+                .find(|(c, _)| !reached.contains_key(c));
+            if let Some(&(caller, span)) = outside {
+                let name = &program.function(caller).name;
+                doubts.insert(
+                    f,
+                    Doubt {
+                        text: format!(
+                            "{name}() also calls it at {}:{}, and no rate entry reaches {name}()",
+                            program.path(span.file),
+                            span.line
+                        ),
+                        span,
+                    },
+                );
+                queue.push_back(f);
+            }
+        }
+        // What a partial function calls is partial through it.
+        while let Some(f) = queue.pop_front() {
+            let Some(doubt) = doubts.get(&f).cloned() else {
+                continue;
+            };
+            for edge in graph.callees.get(&f).map(Vec::as_slice).unwrap_or(&[]) {
+                let g = edge.callee;
+                if starts.contains(&g) || !reached.contains_key(&g) || doubts.contains_key(&g) {
+                    continue;
+                }
+                doubts.insert(g, doubt.clone());
+                queue.push_back(g);
+            }
+        }
+        doubts
+    }
+
+    /// Functions an unresolved call through a pointer, in a function a rate reaches, may
+    /// reach: those whose address escapes, and what they call.
+    fn indirect(
+        program: &Program,
+        graph: &CallGraph,
+        reached: &BTreeMap<FuncRef, Vec<Reach>>,
+    ) -> BTreeMap<FuncRef, Doubt> {
+        let mut doubts = BTreeMap::new();
+        let Some(call) = graph
+            .unresolved
+            .iter()
+            .find(|u| reached.contains_key(&u.caller))
+        else {
+            return doubts;
+        };
+        let doubt = Doubt {
+            text: format!(
+                "{}() calls through `{}` at {}:{}, which tauscan could not resolve, and this function's address is taken",
+                program.function(call.caller).name,
+                call.text,
+                program.path(call.span.file),
+                call.span.line
+            ),
+            span: call.span,
+        };
+        let mut queue: VecDeque<FuncRef> = graph.escaped.iter().copied().collect();
+        while let Some(f) = queue.pop_front() {
+            if doubts.contains_key(&f) {
+                continue;
+            }
+            doubts.insert(f, doubt.clone());
+            for edge in graph.callees.get(&f).map(Vec::as_slice).unwrap_or(&[]) {
+                queue.push_back(edge.callee);
+            }
+        }
+        doubts
     }
 }

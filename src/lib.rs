@@ -4,6 +4,7 @@
 //! `context` → `metrics` → `report`. See ARCHITECTURE.md for the map and its invariants.
 
 pub mod cache;
+pub mod callgraph;
 pub mod check;
 pub mod compdb;
 pub mod context;

@@ -109,11 +109,15 @@ struct ScanArgs {
 enum Command {
     /// List every recursive smoother with its coefficient, rate and figures.
     #[command(
-        after_help = "Exit status: 0 the scan completed; 2 a usage error, or the scan is incomplete (a path\nmissing, a file unreadable, no C file found).\n\nExample:\n  tauscan list firmware/ --rate 1kHz --format json -o smoothers.json"
+        after_help = "Exit status: 0 the scan completed; 2 a usage error, or the scan is incomplete (a path\nmissing, a file unreadable, no C file found).\n\nExample:\n  tauscan list firmware/ --format json -o smoothers.json\n\nRATE is the rate the update runs at where the spec (its rates: carried down the call\ngraph) or --rate gives one (`run`), else the rate the coefficient's own constants were\ndesigned for (`design`); both are shown when they differ."
     )]
     List {
         #[command(flatten)]
         scan: ScanArgs,
+        /// The spec whose rates and stated coefficients apply (default: tauscan.yaml in the
+        /// scan root or the nearest folder above, when there is one).
+        #[arg(long, value_name = "FILE")]
+        spec: Option<PathBuf>,
         /// Output format.
         #[arg(long, value_enum, default_value_t = ListFormat::Table)]
         format: ListFormat,
@@ -450,12 +454,18 @@ fn run(cli: Cli) -> Result<Status> {
     match cli.command {
         Command::List {
             scan: args,
+            spec,
             format,
             output,
         } => {
-            let options = scan_options(&args)?;
-            let result = scan::run(&options);
+            let loaded = load_spec(spec, &args.paths)?;
+            let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
+            let options = scan_options_with(&args, &spec)?;
+            let mut result = scan::run(&options);
             print_notes(&result);
+            // The spec's rates and stated coefficients: the rate each update runs at,
+            // next to the one its coefficient was designed for.
+            tauscan::check::apply(&mut result, &spec);
             let root_label = result.root.to_string_lossy().replace('\\', "/");
             // Nothing was read: the notes say why, and an empty table would only look like
             // an answer.

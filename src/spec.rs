@@ -29,6 +29,10 @@
 //!       settle: { fraction: 0.95, within: "1.5 s" }
 //!       min_noise_reduction: "12 dB"
 //!       max_dead_band: "3 counts"
+//!   - match: { function: lamp_sample }
+//!     assume: { alpha: 0.05 }                        # set at run time (calibration)
+//!   - match: { function: tray_sample }
+//!     assume: { window: 16 }                         # a moving average's, likewise
 //! rules:
 //!   integer-dead-band: warning      # error | warning | note | off
 //! ```
@@ -151,8 +155,21 @@ pub struct SmootherSpec {
     pub matcher: Matcher,
     pub input: Input,
     pub requires: Requirements,
+    /// What the product runs with where the code does not show it.
+    pub assume: Assume,
     /// Line of the entry in the spec file, for findings about the entry itself.
     pub line: usize,
+}
+
+/// A coefficient or window the spec states for smoothers whose code sets it at run time
+/// (a calibration read from flash, a value received over a bus): the figures and the
+/// requirements are then computed from it, and the output says it was assumed.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Assume {
+    /// The weight of the new input, in (0, 1].
+    pub alpha: Option<f64>,
+    /// The number of samples a moving average sums.
+    pub window: Option<u32>,
 }
 
 /// Where a rate is declared.
@@ -263,6 +280,15 @@ struct RawSmoother {
     input: RawInput,
     #[serde(default)]
     requires: RawRequirements,
+    #[serde(default)]
+    assume: RawAssume,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawAssume {
+    alpha: Option<f64>,
+    window: Option<u32>,
 }
 
 #[derive(Deserialize, Default)]
@@ -321,6 +347,7 @@ const KNOWN_KEYS: &[&str] = &[
     "path",
     "rate",
     "period",
+    "constant",
     "event",
     "defaults",
     "requires",
@@ -342,6 +369,9 @@ const KNOWN_KEYS: &[&str] = &[
     "within",
     "min_noise_reduction",
     "max_dead_band",
+    "assume",
+    "alpha",
+    "window",
     "rules",
 ];
 
@@ -812,6 +842,24 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
             Some(p) => Some(reader.glob(p, "match.path", line)?),
             None => None,
         };
+        let assume = Assume {
+            alpha: s.assume.alpha,
+            window: s.assume.window,
+        };
+        if assume.alpha.is_some_and(|a| !(a > 0.0 && a <= 1.0)) {
+            return Err(SpecError {
+                line: Some(line),
+                column: None,
+                message: "smoothers: `assume.alpha` must be in (0, 1]".into(),
+            });
+        }
+        if assume.window == Some(0) {
+            return Err(SpecError {
+                line: Some(line),
+                column: None,
+                message: "smoothers: `assume.window` must be at least 1".into(),
+            });
+        }
         spec.smoothers.push(SmootherSpec {
             matcher: Matcher {
                 id: m.id.clone(),
@@ -822,6 +870,7 @@ pub fn from_str(text: &str) -> Result<Spec, SpecError> {
             },
             input: reader.input(&s.input, line)?,
             requires: reader.requirements(&s.requires, line)?,
+            assume,
             line,
         });
     }
@@ -963,7 +1012,7 @@ rules:
         let text = include_str!("../fixtures/spec-example/tauscan.yaml");
         let spec = from_str(text).unwrap();
         assert_eq!(spec.rates.len(), 5);
-        assert_eq!(spec.smoothers.len(), 3);
+        assert_eq!(spec.smoothers.len(), 5);
         for key in KNOWN_KEYS {
             assert!(
                 text.contains(&format!("{key}:")),

@@ -168,6 +168,21 @@ fn one_update_reached_from_entries_of_different_rates_is_ambiguous() {
         "the 1 kHz rate is missing from: {message}"
     );
     assert!(!message.contains("mast_backup_timer"), "{message}");
+    // Each path names the call that carries its rate (weather.c, read by hand: the
+    // interrupt's handler calls wind_smooth at line 28, the radio task at line 44).
+    for part in [
+        "mast_anemometer_isr -> mast_pulse_handler -> wind_smooth, weather.c:28",
+        "mast_radio_task -> wind_smooth, weather.c:44",
+    ] {
+        assert!(message.contains(part), "`{part}` missing from: {message}");
+    }
+    let lines: Vec<&Value> = finding["labels"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|l| &l["line"])
+        .collect();
+    assert_eq!(lines, vec![28, 44], "{finding:#}");
 
     // With no single rate there is no cutoff in Hz.
     let wind = smoother(&json, "weather.c::wind_smooth::wind_ms");
@@ -268,4 +283,186 @@ fn static_functions_of_the_same_name_in_different_files_keep_their_own_rates() {
         );
     }
     assert_eq!(status, Some(0), "{json}");
+}
+
+/// A smoother's `rate_path` as (function, file, line, via) tuples.
+fn path_of(s: &Value) -> Vec<(String, String, u64, String)> {
+    s["rate_path"]
+        .as_array()
+        .unwrap_or_else(|| panic!("no rate_path: {s}"))
+        .iter()
+        .map(|step| {
+            (
+                step["function"].as_str().unwrap().to_string(),
+                step["file"].as_str().unwrap().to_string(),
+                step["line"].as_u64().unwrap(),
+                step["via"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect()
+}
+
+fn step(function: &str, file: &str, line: u64, via: &str) -> (String, String, u64, String) {
+    (function.into(), file.into(), line, via.into())
+}
+
+#[test]
+fn a_propagated_rate_carries_its_path_from_the_entry_through_each_call() {
+    // fixtures/rates/propagation, read by hand: ferm_adc_isr is defined at
+    // fermenter_adc.c:10 and calls ferm_sensor_task at line 12; that calls ferm_condition
+    // at fermenter_sensors.c:43, which calls ferm_smooth_gravity at line 37.
+    let (_, json) = check("propagation");
+    let gravity = smoother(
+        &json,
+        "fermenter_sensors.c::ferm_smooth_gravity::ferm_gravity_sg",
+    );
+    assert_eq!(
+        path_of(gravity),
+        vec![
+            step("ferm_adc_isr", "fermenter_adc.c", 10, "entry"),
+            step("ferm_sensor_task", "fermenter_adc.c", 12, "call"),
+            step("ferm_condition", "fermenter_sensors.c", 43, "call"),
+            step("ferm_smooth_gravity", "fermenter_sensors.c", 37, "call"),
+        ]
+    );
+    assert_eq!(
+        number(&gravity["running_rate_hz"], "running_rate_hz"),
+        2000.0
+    );
+    assert!(gravity["design_rate_hz"].is_null(), "{gravity}");
+    // No rate from the spec: no path, nothing running.
+    let log = smoother(&json, "fermenter_sensors.c::ferm_log_task::ferm_log_sg");
+    assert!(path_of(log).is_empty(), "{log}");
+    assert!(log["running_rate_hz"].is_null(), "{log}");
+}
+
+#[test]
+fn function_pointer_tables_and_ops_structs_carry_their_entry_rate() {
+    // fixtures/rates/indirect, read by hand: wash_scheduler_tick (50 Hz) calls every task
+    // of the table wash_tasks[] through `wash_tasks[i].fn()` at tasks.c:38, positional and
+    // designated entries alike; wash_pump_isr (1 kHz) calls wash_rinse_sample through the
+    // ops struct (initialised in another file's order of fields) at pump.c:24.
+    let (status, json) = check("indirect");
+    assert_eq!(
+        status,
+        Some(0),
+        "a partial rate warns, a doubt notes: {json}"
+    );
+    let caustic = smoother(&json, "sensors.c::wash_caustic_sample::wash_caustic");
+    assert_eq!(number(&caustic["rate_hz"], "rate_hz"), 50.0, "{caustic}");
+    assert_eq!(
+        path_of(caustic),
+        vec![
+            step("wash_scheduler_tick", "tasks.c", 35, "entry"),
+            step("wash_caustic_sample", "tasks.c", 38, "indirect-call"),
+        ]
+    );
+    let rinse = smoother(&json, "pump.c::wash_rinse_sample::wash_rinse_lpm");
+    assert_eq!(number(&rinse["rate_hz"], "rate_hz"), 1000.0, "{rinse}");
+    assert_eq!(
+        path_of(rinse),
+        vec![
+            step("wash_pump_isr", "pump.c", 21, "entry"),
+            step("wash_rinse_sample", "pump.c", 24, "indirect-call"),
+        ]
+    );
+    // The figure follows the rate: exact cutoff of 0.02f at 1 kHz (formula above).
+    let expected = exact_cutoff_hz(f64::from(0.02f32), 1000.0);
+    let cutoff = number(&rinse["cutoff_hz"], "cutoff_hz");
+    assert!(close(cutoff, expected, 1e-9), "{cutoff} vs {expected}");
+}
+
+#[test]
+fn a_rate_with_another_way_in_is_said_to_be_partial_or_in_doubt() {
+    // fixtures/rates/indirect: wash_service_menu, which no rate entry reaches, also calls
+    // wash_tank_sample (sensors.c:27); wash_dryer_sample is registered as a hook and
+    // called through `hook` (tasks.c:30), which the program never shows a value for.
+    let (_, json) = check("indirect");
+    let tank = smoother(&json, "sensors.c::wash_tank_sample::wash_tank_mm");
+    assert_eq!(number(&tank["rate_hz"], "rate_hz"), 50.0, "{tank}");
+    let doubts: Vec<&str> = tank["rate_doubts"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(Value::as_str)
+        .collect();
+    assert!(
+        doubts
+            .iter()
+            .any(|d| d.starts_with("partial rate") && d.contains("wash_service_menu")),
+        "{doubts:?}"
+    );
+    let partial: Vec<&Value> = findings(&json, "rate-ambiguous")
+        .into_iter()
+        .filter(|f| f["smoother"] == "sensors.c::wash_tank_sample::wash_tank_mm")
+        .collect();
+    assert_eq!(partial.len(), 1, "{partial:#?}");
+    assert_eq!(partial[0]["severity"], "warning");
+    assert_eq!(partial[0]["labels"][0]["line"], 27, "{:#?}", partial[0]);
+
+    let dryer = smoother(&json, "sensors.c::wash_dryer_sample::wash_dryer_c");
+    assert!(
+        dryer["rate_hz"].is_null(),
+        "never silently given a rate: {dryer}"
+    );
+    let noted: Vec<&Value> = findings(&json, "rate-ambiguous")
+        .into_iter()
+        .filter(|f| f["smoother"] == "sensors.c::wash_dryer_sample::wash_dryer_c")
+        .collect();
+    assert_eq!(noted.len(), 1, "{noted:#?}");
+    assert_eq!(noted[0]["severity"], "note");
+    let message = noted[0]["message"].as_str().unwrap();
+    assert!(
+        message.contains("`hook`") && message.contains("tasks.c:30"),
+        "{message}"
+    );
+
+    // The caustic sampler is reached only through the table: no doubt.
+    let caustic = smoother(&json, "sensors.c::wash_caustic_sample::wash_caustic");
+    assert_eq!(caustic["rate_doubts"], serde_json::json!([]), "{caustic}");
+}
+
+/// `tauscan list` with arguments, in a folder: exit status and its JSON.
+fn list_json(dir: &std::path::Path, extra: &[&str]) -> (Option<i32>, Value) {
+    let mut args = vec!["list", "--format", "json"];
+    args.extend_from_slice(extra);
+    args.push(".");
+    let run = common::tauscan_in(dir, &args, std::time::Duration::from_secs(60));
+    run.assert_finished();
+    (run.code, run.json())
+}
+
+#[test]
+fn list_uses_the_spec_and_tells_the_running_rate_from_the_design_rate() {
+    // fixtures/demo-greenhouse: LUX_ALPHA is computed from `#define SENSOR_DT 0.01f` (a
+    // 100 Hz design) and light_sample runs from sensor_task, which the demo's spec runs
+    // every 50 ms (20 Hz).
+    let demo = common::fixture("demo-greenhouse");
+    let (status, json) = list_json(&demo, &[]);
+    assert_eq!(status, Some(0), "{json}");
+    let lux = smoother(&json, "light.c::light_sample::lux_fast");
+    assert_eq!(
+        number(&lux["running_rate_hz"], "running_rate_hz"),
+        20.0,
+        "{lux}"
+    );
+    let design = number(&lux["design_rate_hz"], "design_rate_hz");
+    // Source: C11 6.4.4.2p4, 0.01f is binary32, so 1 / 0.01f is 100 Hz to float precision.
+    assert!(close(design, 1.0 / f64::from(0.01f32), 1e-12), "{lux}");
+    let alpha = number(&lux["alpha"], "alpha");
+    let cutoff = number(&lux["cutoff_hz"], "cutoff_hz");
+    assert!(
+        close(cutoff, exact_cutoff_hz(alpha, 20.0), 1e-9),
+        "figures at the running rate: {cutoff}"
+    );
+
+    // --spec names another spec: here one with no rates, so only the design rate is left.
+    let empty = tempfile::tempdir().unwrap();
+    let spec = empty.path().join("no-rates.yaml");
+    std::fs::write(&spec, "smoothers: []\n").unwrap();
+    let (_, json) = list_json(&demo, &["--spec", spec.to_str().unwrap()]);
+    let lux = smoother(&json, "light.c::light_sample::lux_fast");
+    assert!(lux["running_rate_hz"].is_null(), "{lux}");
+    let rate = number(&lux["rate_hz"], "rate_hz");
+    assert!(close(rate, design, 1e-12), "{lux}");
 }

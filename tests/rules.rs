@@ -661,3 +661,32 @@ fn failing_fixtures_fire_their_rule_and_passing_twins_do_not() {
     assert!(checked > 0, "no rule had fixtures to check");
     assert!(problems.is_empty(), "{}", problems.join("\n\n"));
 }
+
+#[test]
+fn the_readme_rule_table_lists_every_rule_with_its_default_severity() {
+    let readme = std::fs::read_to_string(manifest_dir().join("README.md")).unwrap();
+    let table: BTreeMap<String, String> = readme
+        .lines()
+        .filter_map(|l| {
+            let cells: Vec<&str> = l.split('|').map(str::trim).collect();
+            // `| `rule-id` | severity | finds |`
+            let id = cells.get(1)?.strip_prefix('`')?.strip_suffix('`')?;
+            let severity = cells.get(2)?;
+            ["error", "warning", "note"]
+                .contains(severity)
+                .then(|| (id.to_string(), severity.to_string()))
+        })
+        .collect();
+    let mut problems = Vec::new();
+    for rule in registry() {
+        match table.get(&rule.id) {
+            None => problems.push(format!("README's rule table lacks `{}`", rule.id)),
+            Some(s) if *s != rule.severity => problems.push(format!(
+                "README gives `{}` the default {s}, tauscan {}",
+                rule.id, rule.severity
+            )),
+            Some(_) => {}
+        }
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
+}

@@ -406,9 +406,13 @@ impl<'p> Evaluator<'p> {
                     .program
                     .writes_in_file(name, f.file)
                     .any(|w| w.function == f);
+                // A local set once where it is declared and never again (not through its
+                // address either) is its initialiser, in the function's scope: the
+                // `float rc = 1.0f / (2 * PI * fc);` of an init function.
+                let set_once = || !local.is_static && single_assignment(function, name);
                 return match &local.init {
                     Some(Initializer::Expr(init))
-                        if local.is_const || (local.is_static && never_written) =>
+                        if local.is_const || (local.is_static && never_written) || set_once() =>
                     {
                         let init = init.clone();
                         let ty = self.program.resolve_type(&local.ty);
@@ -1481,6 +1485,57 @@ fn struct_member<'a>(
 }
 
 /// The declaration of a local variable in a function body.
+/// Whether the local `name` of `function` is declared once, never assigned after and its
+/// address never taken: then its value is its initialiser wherever it is read.
+fn single_assignment(function: &Function, name: &str) -> bool {
+    let mut declarations = 0;
+    count_local_decls(&function.body, name, &mut declarations);
+    if declarations != 1 {
+        return false;
+    }
+    // The program's write index leaves a function's locals out: look in the body.
+    let mut changed = false;
+    crate::index::visit_stmts(&function.body, &mut |e| match &e.kind {
+        ExprKind::Unary {
+            op: UnaryOp::AddrOf,
+            arg,
+        } => changed |= arg.root_ident() == Some(name),
+        ExprKind::Assign { target, .. } | ExprKind::IncDec { target, .. } => {
+            changed |= target.root_ident() == Some(name)
+        }
+        _ => {}
+    });
+    !changed
+}
+
+fn count_local_decls(stmts: &[Stmt], name: &str, count: &mut usize) {
+    for stmt in stmts {
+        match stmt {
+            Stmt::Decl(decls) => *count += decls.iter().filter(|d| d.name == name).count(),
+            Stmt::Block(items) => count_local_decls(items, name, count),
+            Stmt::If {
+                then, otherwise, ..
+            } => {
+                count_local_decls(std::slice::from_ref(then), name, count);
+                if let Some(o) = otherwise {
+                    count_local_decls(std::slice::from_ref(o), name, count);
+                }
+            }
+            Stmt::Loop { init, body, .. } => {
+                count_local_decls(init, name, count);
+                count_local_decls(std::slice::from_ref(body), name, count);
+            }
+            Stmt::Switch { body, .. } => count_local_decls(std::slice::from_ref(body), name, count),
+            Stmt::Conditional(branches) => {
+                for (_, b) in branches {
+                    count_local_decls(b, name, count);
+                }
+            }
+            _ => {}
+        }
+    }
+}
+
 pub fn find_local(function: &Function, name: &str) -> Option<LocalDecl> {
     let mut found = None;
     find_local_decl(&function.body, name, &mut found);
@@ -1623,6 +1678,54 @@ mod tests {
         let expect = 0.001f32 / (rc + 0.001f32);
         assert!((k - expect as f64).abs() < 1e-7, "{k} vs {expect}");
         assert!(ev.chain.len() >= 3, "{:?}", ev.chain);
+    }
+
+    #[test]
+    fn locals_set_once_in_an_init_function_fold() {
+        let src = "typedef struct { float a; float y; } lp_t;\nstatic lp_t g_vent;\n\
+                   void lp_init(lp_t *f, float fc, float dt) {\n\
+                     float rc = 1.0f / (2.0f * 3.14159f * fc);\n\
+                     f->a = dt / (rc + dt); f->y = 0; }\n\
+                   void setup(void) { lp_init(&g_vent, 5.0f, 0.01f); }\n";
+        let p = program(src);
+        let mut ev = Evaluator::new(&p);
+        let e = parse_expression("g_vent.a", Span::default()).unwrap();
+        let a = ev.eval(&e, &Scope::default()).unwrap().as_f64();
+        #[allow(clippy::approx_constant)]
+        let rc = 1.0f32 / (2.0f32 * 3.14159f32 * 5.0f32);
+        let expect = 0.01f32 / (rc + 0.01f32);
+        assert!((a - expect as f64).abs() < 1e-7, "{a} vs {expect}");
+        assert!(
+            ev.chain.iter().any(|c| c.text.starts_with("float rc = ")),
+            "the local is a step of the derivation: {:?}",
+            ev.chain
+        );
+    }
+
+    #[test]
+    fn locals_written_again_or_through_their_address_stay_unknown() {
+        for body in [
+            "float rc = 0.5f; if (fc > 1) rc = 0.25f; f->a = dt / (rc + dt);",
+            "float rc = 0.5f; rc *= 2; f->a = dt / (rc + dt);",
+            "float rc = 0.5f; tune(&rc); f->a = dt / (rc + dt);",
+            "float rc = 0.5f; { float rc = 0.25f; f->y = rc; } f->a = dt / (rc + dt);",
+        ] {
+            let src = format!(
+                "typedef struct {{ float a; float y; }} lp_t;\nstatic lp_t g_vent;\n\
+                 void tune(float *x);\n\
+                 void lp_init(lp_t *f, float fc, float dt) {{ {body} }}\n\
+                 void setup(void) {{ lp_init(&g_vent, 5.0f, 0.01f); }}\n"
+            );
+            let p = program(&src);
+            let mut ev = Evaluator::new(&p);
+            let e = parse_expression("g_vent.a", Span::default()).unwrap();
+            let v = ev.eval(&e, &Scope::default());
+            assert!(
+                v.is_err(),
+                "{body}: a local that can change is not its initialiser: {v:?} {:?}",
+                ev.chain
+            );
+        }
     }
 
     #[test]

@@ -790,6 +790,7 @@ fn build(
         chain: reading.chain.clone(),
         rate,
         code_rate: None,
+        assumed: false,
         variants,
         update: format!("{state_text} = {}", g.display(c.value, 400)),
         update_expr: g.to_expr(c.value, c.span, false, 4000),
@@ -857,6 +858,7 @@ fn build_plain(
         chain,
         rate,
         code_rate: None,
+        assumed: false,
         variants: Vec::new(),
         update: format!(
             "{state_text}[..] = {}; sum of {state_text}[0 .. {})",

@@ -167,6 +167,9 @@ pub struct Smoother {
     pub rate: RateInfo,
     /// When the spec sets the rate: the rate the code's own derivation gave, if any.
     pub code_rate: Option<RateInfo>,
+    /// The coefficient (or window) is the one the spec's `assume` states, because the code
+    /// does not show it.
+    pub assumed: bool,
     pub variants: Vec<Variant>,
     /// The update as C text, for people (locals by name).
     pub update: String,

@@ -23,6 +23,12 @@
 //!     "tau_samples": 8.0 | null, "window": 16 | null,
 //!     "rate_hz": 500.0 | null, "rate_source": "LOOP_HZ = 500 (…)" | null,
 //!     "rate_kind": "constant" | "spec" | "adaptive" | "event" | "unknown",
+//!     "design_rate_hz": 100.0 | null,             // the rate the coefficient's derivation names
+//!     "running_rate_hz": 20.0 | null,             // the rate the spec and call graph give
+//!     "rate_path": [ { "function": "sensor_task", "file": "control.c", "line": 40,
+//!                      "via": "entry" | "call" | "indirect-call" } ],
+//!     "rate_doubts": [ "partial rate: …" ],       // what may make the rate another one
+//!     "assumed": false,                           // coefficient from the spec's `assume`
 //!     "cutoff_hz": 10.3 | null, "cutoff_per_sample": 0.13 | null (rad/sample),
 //!     "cutoff_below_nyquist": true | false | null,
 //!     "lag_samples": 7.0 | null, "lag_s": 0.014 | null,
@@ -211,6 +217,15 @@ fn design_record(program: &Program, d: &crate::recognise::design::Design) -> Des
 }
 
 #[derive(Serialize)]
+struct RateStepRecord<'a> {
+    function: &'a str,
+    file: &'a str,
+    line: u32,
+    /// "entry" for the first step, "call" or "indirect-call" for the rest.
+    via: &'static str,
+}
+
+#[derive(Serialize)]
 struct Record<'a> {
     id: String,
     file: &'a str,
@@ -236,6 +251,17 @@ struct Record<'a> {
     rate_hz: Option<f64>,
     rate_source: Option<&'a str>,
     rate_kind: &'static str,
+    /// The rate the coefficient was designed for, from its own derivation (a `DT`, a
+    /// `LOOP_HZ`), when it names one.
+    design_rate_hz: Option<f64>,
+    /// The rate the update runs at, from the spec and the call graph, when known.
+    running_rate_hz: Option<f64>,
+    /// How a rate from the spec reached the update: the entry, then each call.
+    rate_path: Vec<RateStepRecord<'a>>,
+    /// What may make the running rate another one (a partial rate, an indirect call).
+    rate_doubts: &'a [String],
+    /// The coefficient (or window) is the spec's `assume`, not the code's.
+    assumed: bool,
     cutoff_hz: Option<f64>,
     cutoff_per_sample: Option<f64>,
     cutoff_below_nyquist: Option<bool>,
@@ -357,6 +383,26 @@ fn record<'a>(
         } else {
             s.rate.kind.name()
         },
+        design_rate_hz: finite(design_rate(s)),
+        running_rate_hz: finite(running_rate(s)),
+        rate_path: s
+            .rate
+            .path
+            .iter()
+            .enumerate()
+            .map(|(i, step)| RateStepRecord {
+                function: &step.function,
+                file: program.path(step.file),
+                line: step.line,
+                via: match (i, step.indirect) {
+                    (0, _) => "entry",
+                    (_, false) => "call",
+                    (_, true) => "indirect-call",
+                },
+            })
+            .collect(),
+        rate_doubts: &s.rate.doubts,
+        assumed: s.assumed,
         cutoff_hz: finite(own.and_then(|x| x.cutoff_hertz.map(|h| h.0))),
         cutoff_per_sample: finite(own.and_then(|x| x.cutoff.map(|c| c.0))),
         cutoff_below_nyquist: has_stage.then(|| own.is_some_and(|x| x.cutoff.is_some())),
@@ -489,4 +535,25 @@ pub fn render_with_findings(
         .unwrap_or_else(|e| format!("{{\"schema\": {SCHEMA}, \"error\": \"{e}\"}}"));
     text.push('\n');
     text
+}
+
+/// The rate the coefficient was designed for: its derivation's, kept aside when the spec
+/// gave another.
+pub fn design_rate(s: &Smoother) -> Option<f64> {
+    match &s.code_rate {
+        Some(code) => (code.kind == RateKind::Constant)
+            .then_some(code.hz)
+            .flatten(),
+        None => (s.rate.kind == RateKind::Constant)
+            .then_some(s.rate.hz)
+            .flatten(),
+    }
+}
+
+/// The rate the update runs at, from the spec (an entry function carried down the call
+/// graph, a path, a constant it declares) or `--rate`.
+pub fn running_rate(s: &Smoother) -> Option<f64> {
+    (s.rate.kind == RateKind::Spec)
+        .then_some(s.rate.hz)
+        .flatten()
 }

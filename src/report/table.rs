@@ -98,6 +98,33 @@ fn coefficient(s: &crate::recognise::Smoother) -> String {
     }
 }
 
+/// The RATE cell: the rate the update runs at (`run`, from the spec or `--rate`) and the
+/// rate its coefficient was designed for (`design`, from its own constants), both when
+/// they differ; what may make the running rate another one, in brackets.
+pub fn rate_cell(s: &crate::recognise::Smoother) -> String {
+    let running = crate::report::json::running_rate(s);
+    let design = crate::report::json::design_rate(s);
+    let mut text = match (running, design) {
+        (Some(r), Some(d)) if (r - d).abs() > 1e-6 * r.abs() => {
+            format!("{} run, {} design", hertz(r), hertz(d))
+        }
+        (Some(r), _) => format!("{} run", hertz(r)),
+        (None, Some(d)) => format!("{} design", hertz(d)),
+        (None, None) => match s.rate.kind {
+            RateKind::Adaptive => "adaptive".into(),
+            RateKind::Event => "per event".into(),
+            _ if s.code_rate.is_some() && s.rate.source.is_some() => "ambiguous".into(),
+            _ => "?".into(),
+        },
+    };
+    if s.rate.doubts.iter().any(|d| d.starts_with("partial")) {
+        text.push_str(" (partial)");
+    } else if !s.rate.doubts.is_empty() {
+        text.push_str(" (pointer?)");
+    }
+    text
+}
+
 pub fn render(scan: &Scan) -> String {
     let headers = [
         "LOCATION",
@@ -116,13 +143,7 @@ pub fn render(scan: &Scan) -> String {
     let mut rows: Vec<Vec<String>> = Vec::new();
     for (s, f) in scan.recognition.smoothers.iter().zip(&scan.figures) {
         let own = f.own.as_ref();
-        let rate = match (s.rate.hz, s.rate.kind) {
-            (Some(hz), RateKind::Spec) => format!("{} (given)", hertz(hz)),
-            (Some(hz), _) => hertz(hz),
-            (None, RateKind::Adaptive) => "adaptive".into(),
-            (None, RateKind::Event) => "per event".into(),
-            (None, _) => "?".into(),
-        };
+        let rate = rate_cell(s);
         let cutoff = match own {
             None => "-".into(),
             Some(x) => match (x.cutoff, x.cutoff_hertz) {
@@ -242,6 +263,20 @@ pub fn render(scan: &Scan) -> String {
         if count == 1 { "" } else { "s" },
         if files == 1 { "" } else { "s" }
     ));
+    out.push_str(
+        "RATE: run = the rate the update runs at (spec rates carried down the call graph, or --rate); design = the rate its coefficient's constants assume. Figures use run, else design.\n",
+    );
+    // What may make a running rate another one, said under the table.
+    for s in &scan.recognition.smoothers {
+        for doubt in &s.rate.doubts {
+            out.push_str(&format!(
+                "{}:{}: {}\n",
+                neutral(scan.program.path(s.span.file)),
+                s.span.line,
+                neutral(doubt)
+            ));
+        }
+    }
     out
 }
 

@@ -28,11 +28,22 @@ pub(super) fn coefficient_and_rate_labels(s: &crate::recognise::Smoother) -> Vec
         });
     }
     if let Some(span) = s.rate.span {
+        // A rate carried from an entry: the functions it came through, and the entry's
+        // line in the spec (in the source text).
+        let via: Vec<&str> = s.rate.path.iter().map(|p| p.function.as_str()).collect();
+        let message = match via.len() {
+            0 | 1 => format!("rate from {}", s.rate.source.as_deref().unwrap_or("here")),
+            _ => format!(
+                "rate from {}, via {}",
+                s.rate.source.as_deref().unwrap_or("the spec"),
+                via.join(" -> ")
+            ),
+        };
         labels.push(Label {
             file: span.file,
             line: span.line,
             range: None,
-            message: format!("rate from {}", s.rate.source.as_deref().unwrap_or("here")),
+            message,
         });
     }
     labels

@@ -26,6 +26,7 @@ mod noise_reduction_under_requirement;
 mod rate_ambiguous;
 mod rate_mismatch;
 mod rate_unknown;
+mod requirement_not_evaluated;
 mod settling_over_requirement;
 mod spec_entry_unmatched;
 mod state_not_persistent;
@@ -133,6 +134,10 @@ pub struct RuleInfo {
 pub struct EffectiveRate {
     /// Every distinct rate the spec makes reach the update (several: ambiguous).
     pub from_spec: Vec<crate::context::propagate::Reach>,
+    /// A caller no rate reaches also calls the update's function.
+    pub partial: Option<crate::context::propagate::Doubt>,
+    /// An unresolved call through a pointer may reach the update's function.
+    pub indirect: Option<crate::context::propagate::Doubt>,
 }
 
 pub struct Context<'a> {
@@ -192,6 +197,7 @@ pub static REGISTRY: &[RuleInfo] = &[
     rate_mismatch::RULE,
     rate_ambiguous::RULE,
     rate_unknown::RULE,
+    requirement_not_evaluated::RULE,
     spec_entry_unmatched::RULE,
     suppression_without_reason::RULE,
 ];
