@@ -269,6 +269,7 @@ pub fn apply(scan: &mut Scan, spec: &Spec) -> Applied {
     if apply_assumes(&mut scan.recognition.smoothers, &assumes) {
         scan.figures = crate::figures::for_all(&scan.recognition.smoothers);
     }
+    apply_input_ranges(&mut scan.recognition.smoothers, &inputs);
     Applied {
         ids,
         matched,
@@ -276,6 +277,28 @@ pub fn apply(scan: &mut Scan, spec: &Spec) -> Applied {
         inputs,
         rates,
         tags,
+    }
+}
+
+/// Measures each integer smoother's dead band again over the input range the spec
+/// declares: C rounds differently on either side of zero, so a range that stays at or
+/// above zero can have a narrower band than the input's type.
+fn apply_input_ranges(smoothers: &mut [crate::recognise::Smoother], inputs: &[Input]) {
+    for (s, input) in smoothers.iter_mut().zip(inputs) {
+        let (Some((lo, hi)), Some(update), Some(alpha), Some(_)) = (
+            input.range,
+            s.simulation.as_ref(),
+            s.alpha.value(),
+            s.dead_band,
+        ) else {
+            continue;
+        };
+        if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+            continue;
+        }
+        let range = (lo.floor() as i128, hi.ceil() as i128);
+        s.dead_band = crate::recognise::judge::cached_dead_band(update, alpha, Some(range));
+        s.dead_band_nonnegative = None;
     }
 }
 

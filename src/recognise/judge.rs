@@ -760,9 +760,17 @@ fn build(
         })
         .filter(|_| reading.state_type.as_ref().is_some_and(CType::is_integer)),
         _ => match (&reading.state_type, coefficient.value(), &simulation) {
-            (Some(ty), Some(a), Some(u)) if ty.is_integer() => cached_dead_band(u, a),
+            (Some(ty), Some(a), Some(u)) if ty.is_integer() => cached_dead_band(u, a, None),
             _ => None,
         },
+    };
+    // Where the types let the input go below zero and no range is declared yet, the band
+    // of inputs at or above zero too, when C's rounding makes it another.
+    let dead_band_nonnegative = match (&dead_band, coefficient.value(), &simulation) {
+        (Some(all), Some(a), Some(u)) if verdict.form != Form::MovingAverage => {
+            cached_dead_band(u, a, Some((0, i128::MAX))).filter(|b| b != all)
+        }
+        _ => None,
     };
     let variants = variants_of(program, walk, c, &reading, &coefficient);
     let rate = context::rate_of(&reading.chain, &coefficient, options.default_rate_hz);
@@ -787,6 +795,7 @@ fn build(
         dc_gain: verdict.dc_gain,
         scale: verdict.scale,
         dead_band,
+        dead_band_nonnegative,
         chain: reading.chain.clone(),
         rate,
         code_rate: None,
@@ -855,6 +864,7 @@ fn build_plain(
             rising: 0,
             falling: 0,
         }),
+        dead_band_nonnegative: None,
         chain,
         rate,
         code_rate: None,
@@ -878,15 +888,19 @@ fn build_plain(
 
 /// The dead band of an update, remembered per compiled update: firmware repeats the same
 /// spelling (`>> 4` on an `int32_t`) many times, and the search is the costly part.
-fn cached_dead_band(update: &sim::Update, alpha: f64) -> Option<sim::DeadBand> {
+pub(crate) fn cached_dead_band(
+    update: &sim::Update,
+    alpha: f64,
+    range: Option<(i128, i128)>,
+) -> Option<sim::DeadBand> {
     use std::sync::{Mutex, OnceLock};
     static CACHE: OnceLock<Mutex<HashMap<String, Option<sim::DeadBand>>>> = OnceLock::new();
-    let key = format!("{update:?}|{}", alpha.to_bits());
+    let key = format!("{update:?}|{}|{range:?}", alpha.to_bits());
     let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
     if let Some(hit) = cache.lock().ok().and_then(|m| m.get(&key).copied()) {
         return hit;
     }
-    let band = update.dead_band(alpha);
+    let band = update.dead_band_in(alpha, range);
     if let Ok(mut m) = cache.lock() {
         if m.len() < 100_000 {
             m.insert(key, band);

@@ -162,7 +162,13 @@ pub struct Smoother {
     pub dc_gain: Option<f64>,
     /// For a scaled state, the factor between state and output.
     pub scale: Option<f64>,
+    /// The dead band over the values the input can take: its declared types', or the
+    /// spec's `input.range` once `check::apply` has put it in.
     pub dead_band: Option<sim::DeadBand>,
+    /// Where the input's type lets it go below zero and no range is declared: the band
+    /// for inputs at or above zero, when C's rounding makes it differ from `dead_band`
+    /// (division truncates toward zero, so a falling band may appear only below zero).
+    pub dead_band_nonnegative: Option<sim::DeadBand>,
     pub chain: Vec<ChainStep>,
     pub rate: RateInfo,
     /// When the spec sets the rate: the rate the code's own derivation gave, if any.

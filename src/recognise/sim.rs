@@ -255,24 +255,40 @@ impl Update {
         Some(((last - out).max(0) as u64, (out - first).max(0) as u64))
     }
 
-    /// The dead band, for an integer state; None for float state or when the update
-    /// cannot be run (an unknown constant, a type that cannot hold the test values).
+    /// The dead band over every value the declared types let the input take; None for a
+    /// float state or when the update cannot be run (an unknown constant, a type that
+    /// cannot hold the test values).
     pub fn dead_band(&self, alpha: f64) -> Option<DeadBand> {
+        self.dead_band_in(alpha, None)
+    }
+
+    /// The dead band for inputs (and so states at rest) within `range` as well as within
+    /// the declared types. C's rounding differs on either side of zero (division truncates
+    /// toward zero, C11 6.5.5p6; a right shift of a negative value rounds down where the
+    /// implementation shifts arithmetically, C11 6.5.7p5), so the band of a range that
+    /// stays at or above zero can be narrower than the type's.
+    pub fn dead_band_in(&self, alpha: f64, range: Option<(i128, i128)>) -> Option<DeadBand> {
         let (state_min, state_max) = state_range(&self.state_type, self.target)?;
         let scale = self.scale.max(1.0);
         let out_max = (state_max as f64 / scale) as i128;
         let out_min = (state_min as f64 / scale) as i128;
-        let (input_min, input_max) = self
+        let (mut input_min, mut input_max) = self
             .input_types
             .iter()
             .filter_map(|t| state_range(t, self.target))
             .fold((out_min, out_max), |(lo, hi), (a, b)| {
                 (lo.max(a), hi.min(b))
             });
-        if input_max < 8 {
+        if let Some((lo, hi)) = range {
+            input_min = input_min.max(lo);
+            input_max = input_max.min(hi);
+        }
+        let negative = input_min < -8 && state_min < 0 && scale <= 1.0;
+        if input_max < 8 && !negative {
             return None;
         }
-        let base_out = (input_max / 3).clamp(1, 1000);
+        let low_positive = input_min.max(0);
+        let base_out = low_positive + ((input_max - low_positive) / 3).clamp(1, 1000);
         let span = if alpha > 0.0 && alpha.is_finite() {
             ((4.0 / alpha).ceil().min((1 << 17) as f64) as i128 + 64).min(1 << 17)
         } else {
@@ -296,13 +312,17 @@ impl Update {
         // Truncation toward zero behaves differently below zero (C11 6.5.5), so a signed
         // state is tried on both sides. A scaled state is read out by a division or a shift
         // whose rounding below zero is not known here, and its band is under one count.
-        let mut starts = vec![base_out];
-        if input_min < -8 && state_min < 0 && scale <= 1.0 {
-            starts.push(-((-input_min) / 3).clamp(1, 1000) - bases);
+        let mut starts = Vec::new();
+        if input_max >= 8 {
+            starts.push(base_out);
+        }
+        if negative {
+            let high_negative = input_max.min(0);
+            starts.push(high_negative - ((high_negative - input_min) / 3).clamp(1, 1000) - bases);
         }
         // Most spellings see the state and input only through their difference, so the
         // stall does not depend on where the state rests: one start point then covers all.
-        let bases = if scale <= 1.0 && self.translation_invariant(base_out, span) {
+        let bases = if scale <= 1.0 && self.translation_invariant(starts[0], span) {
             1
         } else {
             bases

@@ -36,6 +36,8 @@
 //!     "time_constant_samples": 7.49 | null,
 //!     "noise_ratio": 0.25 | null, "dc_gain": 1.0 | null, "scale": 8.0 | null,
 //!     "stall": { "rising": 7, "falling": 0 } | null,   // dead band in counts, integer forms
+//!     "stall_nonnegative": { "rising": 7, "falling": 0 } | null,  // for inputs >= 0, where
+//!                                                 // a signed type with no declared range differs
 //!     "coefficient_chain": [ { "file": "vent.c", "line": 3, "text": "#define K 3" } ],
 //!     "definition": { "file": "lpf.c", "line": 9 } | null,   // for instances
 //!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25 } ],
@@ -273,6 +275,9 @@ struct Record<'a> {
     dc_gain: Option<f64>,
     scale: Option<f64>,
     stall: Option<Stall>,
+    /// Where the input's type lets it go below zero and no range is declared: the dead
+    /// band for inputs at or above zero, when C's rounding makes it another.
+    stall_nonnegative: Option<Stall>,
     coefficient_chain: Vec<ChainRecord>,
     definition: Option<Location>,
     variants: Vec<VariantRecord>,
@@ -414,6 +419,10 @@ fn record<'a>(
         dc_gain: finite(s.dc_gain),
         scale: finite(s.scale),
         stall: s.dead_band.map(|d| Stall {
+            rising: d.rising,
+            falling: d.falling,
+        }),
+        stall_nonnegative: s.dead_band_nonnegative.map(|d| Stall {
             rising: d.rising,
             falling: d.falling,
         }),

@@ -165,10 +165,14 @@ pub fn render(scan: &Scan) -> String {
             .map(sig3)
             .unwrap_or_else(|| "-".into());
         let dc = s.dc_gain.map(sig3).unwrap_or_else(|| "?".into());
-        let band = s
-            .dead_band
-            .map(|d| format!("+{}/-{}", d.rising, d.falling))
-            .unwrap_or_else(|| "-".into());
+        let band = match (s.dead_band, s.dead_band_nonnegative) {
+            (Some(d), Some(nn)) => format!(
+                "+{}/-{} (>=0: +{}/-{})",
+                d.rising, d.falling, nn.rising, nn.falling
+            ),
+            (Some(d), None) => format!("+{}/-{}", d.rising, d.falling),
+            (None, _) => "-".into(),
+        };
         let location = format!("{}:{}", scan.program.path(s.span.file), s.span.line);
         let mut coefficient_text = coefficient(s);
         if s.instance_count > 0 && s.alpha.value().is_none() {

@@ -44,18 +44,27 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
             continue;
         }
         let how = match (band.rising > 0, band.falling > 0) {
-            (true, false) => " (an arithmetic shift rounds toward minus infinity)",
+            (true, false) => " (the result is rounded down: a right shift, or a division of values at or above zero)",
             (true, true) if band.rising == band.falling => {
-                " (integer division truncates toward zero)"
+                " (integer division truncates toward zero: down above zero, up below it)"
             }
             _ => "",
+        };
+        // No range declared and a signed input: which side applies where.
+        let sides = match s.dead_band_nonnegative {
+            Some(nn) => format!(
+                "; for inputs at or above zero, {} below and {} above (give `input.range` in the spec to judge the range the input really takes)",
+                counts(nn.rising, &ctx.inputs[i]),
+                counts(nn.falling, &ctx.inputs[i])
+            ),
+            None => String::new(),
         };
         let mut finding = Finding::at(
             &RULE,
             i,
             s,
             format!(
-                "rests up to {} below a rising input and {} above a falling one{how}",
+                "rests up to {} below a rising input and {} above a falling one{how}{sides}",
                 counts(band.rising, &ctx.inputs[i]),
                 counts(band.falling, &ctx.inputs[i])
             ),
