@@ -36,18 +36,107 @@ fn seconds(v: f64) -> String {
     }
 }
 
+/// Most entry functions named in the commented `rates:` example.
+const MAX_ENTRIES: usize = 40;
+
+/// The entry functions of the program that lead to a smoother: functions nothing in the
+/// scan calls (an interrupt, a task, `main`), or whose address is taken (a callback), from
+/// which a smoother's function is reached through calls. Each with the smoothers'
+/// functions it reaches, by name, sorted.
+fn entries(scan: &Scan) -> Vec<(String, Vec<String>)> {
+    use std::collections::{BTreeMap, BTreeSet, VecDeque};
+    let program = &scan.program;
+    let holders: BTreeSet<crate::index::FuncRef> = scan
+        .recognition
+        .smoothers
+        .iter()
+        .filter_map(|s| s.function_ref)
+        .collect();
+    if holders.is_empty() {
+        return Vec::new();
+    }
+    let graph = crate::callgraph::build(program);
+    let mut found: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
+    for f in program.functions() {
+        let called = graph.callers.get(&f).is_some_and(|c| !c.is_empty());
+        if called && !graph.escaped.contains(&f) {
+            continue;
+        }
+        // Breadth first over what it calls, each function once.
+        let mut seen = BTreeSet::from([f]);
+        let mut queue = VecDeque::from([f]);
+        let mut reached = BTreeSet::new();
+        while let Some(g) = queue.pop_front() {
+            if holders.contains(&g) {
+                reached.insert(program.function(g).name.clone());
+            }
+            for edge in graph.callees.get(&g).map(Vec::as_slice).unwrap_or(&[]) {
+                if seen.insert(edge.callee) {
+                    queue.push_back(edge.callee);
+                }
+            }
+        }
+        if !reached.is_empty() {
+            found
+                .entry(program.function(f).name.clone())
+                .or_default()
+                .extend(reached);
+        }
+    }
+    found
+        .into_iter()
+        .map(|(name, reached)| (name, reached.into_iter().collect()))
+        .collect()
+}
+
+/// The commented `rates:` example: the entry functions found, each with a rate to fill
+/// in (a placeholder the spec refuses until it is replaced).
+fn rates_example(scan: &Scan) -> String {
+    let found = entries(scan);
+    let mut out = String::from(
+        "# Name the entry functions (interrupts, tasks) and the rates they run at, so every\n\
+         # smoother's figures are in Hz and seconds; the rate reaches everything they call.\n",
+    );
+    if found.is_empty() {
+        out.push_str(
+            "# rates:\n#   - { function: control_isr, rate: \"1 kHz\" }\n#   - { function: ui_task, period: \"10 ms\" }\n",
+        );
+        return out;
+    }
+    out.push_str(
+        "# These functions are called by nothing in the scan (or through a pointer) and lead to\n\
+         # smoothers; fill in each one's rate (or `period: \"10 ms\"`, or `event: true`):\n# rates:\n",
+    );
+    for (name, reached) in found.iter().take(MAX_ENTRIES) {
+        let mut shown: Vec<&str> = reached.iter().take(3).map(String::as_str).collect();
+        if reached.len() > 3 {
+            shown.push("...");
+        }
+        out.push_str(&format!(
+            "#   - {{ function: {name}, rate: \"? Hz\" }}   # reaches {}\n",
+            shown.join(", ")
+        ));
+    }
+    if found.len() > MAX_ENTRIES {
+        out.push_str(&format!(
+            "#   ({} more entry functions not listed)\n",
+            found.len() - MAX_ENTRIES
+        ));
+    }
+    out
+}
+
 pub fn starter_spec(scan: &Scan, tolerance: f64) -> String {
     let ids = scan.ids();
     let mut out = String::new();
     out.push_str(&format!(
         "# tauscan spec, written by `tauscan init` from the figures the code has today\n\
          # (each held within {} %). Review it, tighten it to the product's real requirements,\n\
-         # and keep it beside the code. Every key is described in tauscan's README.\n#\n\
-         # Name the entry functions (interrupts, tasks) and the rates they run at, so every\n\
-         # smoother's figures are in Hz and seconds:\n\
-         # rates:\n#   - {{ function: control_isr, rate: \"1 kHz\" }}\n#   - {{ function: ui_task, period: \"10 ms\" }}\n\n",
+         # and keep it beside the code. Every key is described in tauscan's README.\n#\n",
         four(tolerance * 100.0)
     ));
+    out.push_str(&rates_example(scan));
+    out.push('\n');
     if scan.recognition.smoothers.is_empty() {
         out.push_str("smoothers: []\n");
         return out;
