@@ -335,6 +335,38 @@ impl Program {
             .copied()
     }
 
+    /// What a function returns, from its definition (the one a call from `file` reaches)
+    /// or else a prototype (the file's own, or its includes', or any file's).
+    pub fn return_type(&self, name: &str, file: Option<usize>) -> Option<CType> {
+        let defined = match file {
+            Some(file) => self
+                .functions_named(name)
+                .iter()
+                .find(|f| f.file == file)
+                .or_else(|| self.functions_named(name).first()),
+            None => self.functions_named(name).first(),
+        };
+        if let Some(f) = defined {
+            return Some(self.function(*f).returns.clone());
+        }
+        let in_file = |fi: usize| {
+            self.files
+                .get(fi)?
+                .prototypes
+                .iter()
+                .find(|(n, _)| n == name)
+                .map(|(_, t)| t.clone())
+        };
+        if let Some(file) = file {
+            for &fi in self.include_closure(file) {
+                if let Some(t) = in_file(fi) {
+                    return Some(t);
+                }
+            }
+        }
+        (0..self.files.len()).find_map(in_file)
+    }
+
     /// All functions of a name (static functions of the same name in several files).
     pub fn functions_named(&self, name: &str) -> &[FuncRef] {
         self.functions.get(name).map(Vec::as_slice).unwrap_or(&[])

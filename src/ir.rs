@@ -769,6 +769,10 @@ pub struct FileIr {
     pub tags: Vec<(u32, String)>,
     /// `#include` directives, in order.
     pub includes: Vec<Include>,
+    /// Function prototypes (declarations without a body): name and return type, so that
+    /// a call of a function defined outside the scan still has a type (`uint16_t
+    /// adc_read(void);`).
+    pub prototypes: Vec<(String, CType)>,
 }
 
 /// One `#include` directive: the path as written (without quotes or brackets).

@@ -13,6 +13,9 @@ use tree_sitter::{Node, Parser, Tree};
 /// Deeper nesting than this is lowered as an opaque expression, so that hostile input
 /// cannot overflow the stack of the recursive lowering.
 const MAX_DEPTH: u32 = 200;
+/// Most function prototypes kept per file (a header of a vendor library declares
+/// thousands; only their return types are wanted).
+const MAX_PROTOTYPES: usize = 20_000;
 
 mod kind {
     pub const PREPROC_DEF: &str = "preproc_def";
@@ -1768,6 +1771,9 @@ impl Lower<'_> {
                 }
                 kind::POINTER_DECLARATOR => {
                     ty = CType::Pointer(Box::new(ty));
+                    // `(*hook)(void)`: a pointer to a function is a variable, not a
+                    // function's declaration.
+                    params = None;
                     current = field_child(current, field::DECLARATOR)?;
                 }
                 kind::ARRAY_DECLARATOR => {
@@ -1846,7 +1852,10 @@ impl Lower<'_> {
             };
             if let Some((name, ty, params, _)) = self.declarator(d, base.clone()) {
                 if params.is_some() {
-                    // A function prototype, not a variable.
+                    // A function prototype, not a variable: its return type is kept.
+                    if self.ir.prototypes.len() < MAX_PROTOTYPES {
+                        self.ir.prototypes.push((name, ty));
+                    }
                     continue;
                 }
                 result.push(LocalDecl {

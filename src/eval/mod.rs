@@ -1447,6 +1447,14 @@ pub fn place_type(program: &Program, function: Option<FuncRef>, expr: &Expr) -> 
                 _ => return None,
             }
         }
+        // A call: what the function returns, from its definition or its prototype (an
+        // ADC driver's `uint16_t adc_read(void);`).
+        ExprKind::Call { callee, .. } => {
+            let ExprKind::Ident(name) = &callee.kind else {
+                return None;
+            };
+            program.return_type(name, function.map(|f| f.file))?
+        }
         _ => return None,
     };
     Some(program.resolve_type(&ty))

@@ -314,6 +314,26 @@ fn state_type_name(ty: &CType, target: Target) -> String {
     }
 }
 
+/// The declared types that bound an update's values, with what they are declared for:
+/// "`int16_t` `pump_mv` and `uint16_t` `raw`".
+fn declared_types(update: &Update, names: &[String]) -> String {
+    let mut parts = Vec::new();
+    for (i, ty) in std::iter::once(&update.state_type)
+        .chain(update.input_types.iter())
+        .enumerate()
+    {
+        if !ty.is_integer() {
+            continue;
+        }
+        let name = names.get(i).map(String::as_str).unwrap_or("an input");
+        let part = format!("{} `{name}`", state_type_name(ty, update.target));
+        if !parts.contains(&part) {
+            parts.push(part);
+        }
+    }
+    parts.join(" and ")
+}
+
 /// A type wider than `ty` of the same signedness, by the name a reader would cast to.
 pub(super) fn wider(ty: IntType) -> &'static str {
     match (ty.signed, ty.bits < 32) {
@@ -532,6 +552,15 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
                 "{} (assuming inputs over the whole of `int`: the spec gives no \
                  `input.range` and no fixed-width type bounds them)",
                 found.message
+            )
+        } else if !range.from_spec {
+            // Where the range came from: the declared types, named.
+            format!(
+                "{} (values over {}..{}, the range of {}: the spec gives no `input.range`)",
+                found.message,
+                range.lo,
+                range.hi,
+                declared_types(update, &names_of(s))
             )
         } else {
             found.message
