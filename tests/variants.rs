@@ -23,9 +23,14 @@ use common::crate_root;
 const OPTION: &str = "FERMENTER_FAST_PH";
 
 /// The smoothers of the fixture, with the macro whose branches choose each coefficient.
-const CASES: [(&str, &str, &str); 2] = [
+const CASES: [(&str, &str, &str); 3] = [
     ("ferm_ph_sample", "ferm_ph", "FERM_PH_ALPHA"),
     ("ferm_temp_sample", "g_ferm_vessel_cdeg", "FERM_TEMP_SHIFT"),
+    (
+        "ferm_gravity_sample",
+        "ferm_gravity_sum",
+        "FERM_GRAVITY_WINDOW",
+    ),
 ];
 
 /// What the driver printed for one case.
@@ -155,7 +160,11 @@ fn check_scan(defined: bool, conditions: &mut Vec<String>) -> Vec<String> {
         };
         // Source: execution of the fixture with the system C compiler (cc), built with the
         // same option as the scan.
-        match record["alpha"].as_f64() {
+        // A moving average reports its window, whose first step from rest is 1/N.
+        let reported_alpha = record["alpha"]
+            .as_f64()
+            .or_else(|| record["window"].as_f64().map(|n| 1.0 / n));
+        match reported_alpha {
             Some(a) if (a - this_build.alpha).abs() <= tolerance(this_build) => {}
             _ => problems.push(format!(
                 "{label}: {function} / {state}: alpha reported {}, executed {}",
@@ -195,6 +204,18 @@ fn check_scan(defined: bool, conditions: &mut Vec<String>) -> Vec<String> {
                          executes {}",
                         variant["alpha"], other_build.alpha
                     )),
+                }
+                // A window's variant carries the window: the other build's first step
+                // from rest is 1/N.
+                if record["form"] == "moving-average" {
+                    let expected = (1.0 / other_build.alpha).round();
+                    if variant["window"].as_f64() != Some(expected) {
+                        problems.push(format!(
+                            "{label}: {function}: variant window reported {}, the other \
+                             build executes a window of {expected}",
+                            variant["window"]
+                        ));
+                    }
                 }
                 let condition = variant["condition"].as_str().unwrap_or("");
                 if !condition.contains(OPTION) {

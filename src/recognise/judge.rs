@@ -772,7 +772,10 @@ fn build(
         }
         _ => None,
     };
-    let variants = variants_of(program, walk, c, &reading, &coefficient);
+    let variants = match verdict.form {
+        Form::MovingAverage => window_variants(program, walk, &verdict),
+        _ => variants_of(program, walk, c, &reading, &coefficient),
+    };
     let rate = context::rate_of(&reading.chain, &coefficient, options.default_rate_hz);
     let function = home_function(walk, walk.home);
     let function_name = function
@@ -869,7 +872,7 @@ fn build_plain(
         rate,
         code_rate: None,
         assumed: false,
-        variants: Vec::new(),
+        variants: window_variants(program, walk, &verdict),
         update: format!(
             "{state_text}[..] = {}; sum of {state_text}[0 .. {})",
             g.display(input, 200),
@@ -1027,12 +1030,45 @@ fn variants_of(
     if alpha.value().is_none() {
         return variants;
     }
-    for step in &reading.chain {
+    for (name, def) in other_definitions(program, walk, &reading.chain) {
+        let make = || {
+            let mut ev = new_evaluator(program, walk);
+            ev.macro_override = Some(def.clone());
+            ev
+        };
+        let ev = RefCell::new(make());
+        let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
+        let value = affine::read(&walk.graph, c.value, c.state, &shift).and_then(|aff| {
+            let mut ev = make();
+            let (values, _) = evaluate_atoms(program, walk, c, &aff, &mut ev);
+            let a = aff.alpha.evaluate(&|i| values[i as usize]);
+            a.is_finite().then_some(a)
+        });
+        variants.push(Variant {
+            condition: def.condition.to_string(),
+            macro_name: name,
+            alpha: value,
+            window: None,
+        });
+    }
+    variants
+}
+
+/// The other definitions of each macro a derivation went through, under `#if` branches
+/// this build did not take: the same file's, or a header the update's file can include
+/// (another board's header is no preprocessor branch of this build).
+fn other_definitions(
+    program: &Program,
+    walk: &WalkResult,
+    chain: &[crate::eval::ChainStep],
+) -> Vec<(String, crate::ir::MacroDef)> {
+    let mut out = Vec::new();
+    let file = home_function(walk, walk.home).map(|f| f.file);
+    for step in chain {
         let Some(name) = &step.name else { continue };
         if !step.text.starts_with("#define") {
             continue;
         }
-        let file = home_function(walk, walk.home).map(|f| f.file);
         for def in program.macro_definitions(name) {
             if def.span.line == step.line && def.span.file == step.file {
                 continue;
@@ -1043,34 +1079,45 @@ fn variants_of(
             {
                 continue;
             }
-            // Another file's definition is a variant only when this file can include it:
-            // another board's header is no preprocessor branch of this build.
             let def_file = def.span.file.0 as usize;
             let reachable = def.span.file == step.file
                 || file.is_some_and(|f| program.include_closure(f).contains(&def_file));
-            if !reachable {
-                continue;
+            if reachable {
+                out.push((name.clone(), def.clone()));
             }
-            let make = || {
-                let mut ev = new_evaluator(program, walk);
-                ev.macro_override = Some(def.clone());
-                ev
-            };
-            let ev = RefCell::new(make());
-            let shift = |lhs: V, count: V| shift_of(program, walk, &ev, c.span, lhs, count);
-            let value = affine::read(&walk.graph, c.value, c.state, &shift).and_then(|aff| {
-                let mut ev = make();
-                let (values, _) = evaluate_atoms(program, walk, c, &aff, &mut ev);
-                let a = aff.alpha.evaluate(&|i| values[i as usize]);
-                a.is_finite().then_some(a)
-            });
-            variants.push(Variant {
-                condition: def.condition.to_string(),
-                macro_name: name.clone(),
-                alpha: value,
-                window: None,
-            });
         }
     }
-    variants
+    out
+}
+
+/// A moving average's window under the other `#if` branches of the macros it came from:
+/// its terms (buffer length, index wrap, loop bound) evaluated again with each other
+/// definition; the window is the smallest.
+fn window_variants(program: &Program, walk: &WalkResult, verdict: &Verdict) -> Vec<Variant> {
+    let function = home_function(walk, walk.home);
+    let scope = crate::eval::Scope {
+        function,
+        ..Default::default()
+    };
+    other_definitions(program, walk, &verdict.chain)
+        .into_iter()
+        .map(|(name, def)| {
+            let window = verdict
+                .window_terms
+                .iter()
+                .filter_map(|term| {
+                    let mut ev = new_evaluator(program, walk);
+                    ev.macro_override = Some(def.clone());
+                    let n = ev.eval(term, &scope).ok()?.as_f64();
+                    (n >= 1.0 && n <= u32::MAX as f64 && n.fract() == 0.0).then_some(n as u32)
+                })
+                .min();
+            Variant {
+                condition: def.condition.to_string(),
+                macro_name: name,
+                alpha: window.map(|n| 1.0 / f64::from(n)),
+                window,
+            }
+        })
+        .collect()
 }

@@ -40,7 +40,8 @@
 //!                                                 // a signed type with no declared range differs
 //!     "coefficient_chain": [ { "file": "vent.c", "line": 3, "text": "#define K 3" } ],
 //!     "definition": { "file": "lpf.c", "line": 9 } | null,   // for instances
-//!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25 } ],
+//!     "variants": [ { "condition": "defined(FAST)", "macro": "K", "alpha": 0.25,
+//!                     "window": 4 | null } ],         // window: a moving average's
 //!     "update": "y = y + (u - y) >> 3", "inputs": ["u"],
 //!     "cascade": { "stages": [id, …], "cutoff_hz": …, "cutoff_per_sample": …,
 //!                  "lag_samples": …, "lag_s": …, "settle": {…}, "noise_ratio": … } | null,
@@ -128,6 +129,8 @@ struct VariantRecord {
     #[serde(rename = "macro")]
     macro_name: String,
     alpha: Option<f64>,
+    /// For a moving average: the window under that branch.
+    window: Option<u32>,
 }
 
 #[derive(Serialize)]
@@ -446,6 +449,7 @@ fn record<'a>(
                 condition: v.condition.clone(),
                 macro_name: v.macro_name.clone(),
                 alpha: finite(v.alpha),
+                window: v.window,
             })
             .collect(),
         update: &s.update,

@@ -32,6 +32,10 @@ pub struct Verdict {
     pub scale: Option<f64>,
     /// Steps of the derivation found by the judge itself (the window's).
     pub chain: Vec<ChainStep>,
+    /// The expressions whose smallest value is the window (a buffer's length, where its
+    /// index wraps, a loop's bound), read in the update's function: evaluated again under
+    /// another `#if` branch of a macro they use, they give the window's variants.
+    pub window_terms: Vec<crate::ir::Expr>,
 }
 
 impl Verdict {
@@ -42,6 +46,7 @@ impl Verdict {
             dc_gain: None,
             scale: None,
             chain: Vec::new(),
+            window_terms: Vec::new(),
         }
     }
 }

@@ -50,11 +50,13 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
     let function = r.function();
     let span = r.candidate.span;
     let mut chain = Vec::new();
+    let mut terms = Vec::new();
     let size = g
         .to_expr(base, span, true, 2000)
         .and_then(|e| eval::place_type(r.program, function, &e))
         .and_then(|t| match r.program.resolve_type(&t) {
             CType::Array(_, Some(size)) => {
+                terms.push((*size).clone());
                 let mut ev = Evaluator::new(r.program);
                 let out = ev
                     .eval(
@@ -71,7 +73,11 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
             }
             _ => None,
         });
-    let wrap = index_wrap(r, index).and_then(whole);
+    let wrap = index_wrap(r, index).and_then(|(n, term)| {
+        let n = whole(n)?;
+        terms.push(term);
+        Some(n)
+    });
     let window = match (size, wrap) {
         (Some(a), Some(b)) => Some(a.min(b)),
         (a, b) => a.or(b),
@@ -80,11 +86,12 @@ pub fn judge(r: &Reading) -> Option<Verdict> {
     v.window = Some(window);
     v.dc_gain = Some(1.0);
     v.chain = chain;
+    v.window_terms = terms;
     Some(v)
 }
 
 /// Where a ring index wraps: `i = (i + 1) % N`, or `if (i >= N) i = 0;` / `== N`.
-fn index_wrap(r: &Reading, index: V) -> Option<f64> {
+fn index_wrap(r: &Reading, index: V) -> Option<(f64, Expr)> {
     let g = r.g();
     let text = g.display(g.strip_aliases(index), 200);
     let function = r.function()?;
@@ -97,7 +104,7 @@ fn index_wrap(r: &Reading, index: V) -> Option<f64> {
         } = &w.value.kind
         {
             if let Ok(v) = Evaluator::new(r.program).eval(rhs, &scope) {
-                return Some(v.as_f64());
+                return Some((v.as_f64(), (**rhs).clone()));
             }
         }
     }
@@ -124,7 +131,7 @@ fn index_wrap(r: &Reading, index: V) -> Option<f64> {
                     found = Evaluator::new(r.program)
                         .eval(rhs, &scope)
                         .ok()
-                        .map(|v| v.as_f64());
+                        .map(|v| (v.as_f64(), (**rhs).clone()));
                 }
             }
         }
@@ -155,7 +162,7 @@ fn index_wrap(r: &Reading, index: V) -> Option<f64> {
             found = Evaluator::new(r.program)
                 .eval(rhs, &scope)
                 .ok()
-                .map(|v| v.as_f64());
+                .map(|v| (v.as_f64(), (**rhs).clone()));
         }
     });
     found

@@ -22,5 +22,10 @@ pub fn judge(program: &Program, walk: &WalkResult, c: &Candidate, r: &Resummed) 
     v.window = Some(n as u32);
     v.dc_gain = Some(1.0);
     v.chain = ev.chain;
+    v.window_terms = walk
+        .graph
+        .to_expr(r.bound, c.span, true, 2000)
+        .into_iter()
+        .collect();
     Some(v)
 }
