@@ -1,15 +1,26 @@
 #!/usr/bin/env bash
-# tauscan's benchmark: one run prints, at three tree sizes, the full check's time against a
-# parse-only pass over the same files (same walker, same thread pool), throughput, peak
-# memory, and the speedup of 2 threads over 1. Ratios within one run are what count; the
-# absolute times depend on the machine.
+# tauscan's benchmark: one run prints, for generated trees of the given sizes and for any
+# real trees named after `--`, the full check's time against a bare tree-sitter parse of
+# the same files (walk, parse every file once in parallel, keep nothing: the floor), the
+# parse-with-lowering pass, peak memory of each, the speedup of 2 threads over 1, and a
+# warm --cache run against a cold one. Ratios within one run are what count; absolute
+# times depend on the machine.
 #
-# usage: bench/run.sh [SIZES...]      (default: 10000 100000 1000000 lines)
+# usage: bench/run.sh [SIZES...] [-- TREE...]   (default sizes: 10000 100000 1000000 lines)
 set -euo pipefail
 cd "$(dirname "$0")/.."
-sizes=("${@:-10000 100000 1000000}")
-# shellcheck disable=SC2206
-sizes=(${sizes[@]})
+sizes=()
+trees=()
+while [ $# -gt 0 ]; do
+    if [ "$1" = "--" ]; then
+        shift
+        trees=("$@")
+        break
+    fi
+    sizes+=("$1")
+    shift
+done
+[ ${#sizes[@]} -gt 0 ] || [ ${#trees[@]} -gt 0 ] || sizes=(10000 100000 1000000)
 work=${TAUSCAN_BENCH_DIR:-/tmp/tauscan-bench}
 mkdir -p "$work"
 
@@ -33,23 +44,31 @@ measure() {
     echo "$best $rss"
 }
 
-printf '%-9s %9s %9s %7s %9s %11s %9s %9s %8s %9s %8s\n' lines parse_s check_s ratio MB/s lines/s rss_MB t1_s speedup cached_s gain
+row() {
+    local name=$1 tree=$2
+    local lines bare bare_rss parse check rss one cached
+    lines=$(find "$tree" -name '*.[ch]' -print0 | xargs -0 cat | wc -l)
+    read -r bare bare_rss < <(measure "$bin" debug bare-parse "$tree")
+    read -r parse _ < <(measure "$bin" debug parse-only "$tree")
+    read -r check rss < <(measure "$bin" check --format json --spec /dev/null "$tree")
+    read -r one _ < <(RAYON_NUM_THREADS=1 measure "$bin" check --format json --spec /dev/null "$tree")
+    # The cache: filled by one run, then timed on the unchanged tree.
+    local cache="$work/cache-$(basename "$tree")"
+    rm -rf "$cache"
+    "$bin" check --format json --spec /dev/null --cache "$cache" "$tree" > /dev/null 2>&1 || true
+    read -r cached _ < <(measure "$bin" check --format json --spec /dev/null --cache "$cache" "$tree")
+    printf '%-26s %9s %8.3f %8.3f %8.3f %7.2f %8.1f %8.1f %8.3f %8.2f %8.3f %7.2f\n' \
+        "$name" "$lines" "$bare" "$parse" "$check" "$(echo "$check / $bare" | bc -l)" \
+        "$(echo "$bare_rss / 1024" | bc -l)" "$(echo "$rss / 1024" | bc -l)" \
+        "$one" "$(echo "$one / $check" | bc -l)" "$cached" "$(echo "$check / $cached" | bc -l)"
+}
+
+printf '%-26s %9s %8s %8s %8s %7s %8s %8s %8s %8s %8s %7s\n' tree lines bare_s parse_s check_s ratio bare_MB rss_MB t1_s speedup cached_s gain
 for n in "${sizes[@]}"; do
     tree="$work/tree-$n"
     [ -d "$tree" ] || python3 bench/generate.py "$tree" "$n" > /dev/null
-    bytes=$(find "$tree" -name '*.[ch]' -print0 | xargs -0 cat | wc -c)
-    lines=$(find "$tree" -name '*.[ch]' -print0 | xargs -0 cat | wc -l)
-    read -r parse _ < <(measure "$bin" debug parse-only "$tree")
-    read -r check rss < <(measure "$bin" check --format json "$tree")
-    read -r one _ < <(RAYON_NUM_THREADS=1 measure "$bin" check --format json "$tree")
-    # The parse cache: filled by one run, then timed on the unchanged tree.
-    cache="$work/cache-$n"
-    rm -rf "$cache"
-    "$bin" check --format json --cache "$cache" "$tree" > /dev/null 2>&1 || true
-    read -r cached _ < <(measure "$bin" check --format json --cache "$cache" "$tree")
-    printf '%-9s %9.3f %9.3f %7.2f %9.2f %11.0f %9.1f %9.3f %8.2f %9.3f %8.2f\n' \
-        "$lines" "$parse" "$check" "$(echo "$check / $parse" | bc -l)" \
-        "$(echo "$bytes / 1000000 / $check" | bc -l)" "$(echo "$lines / $check" | bc -l)" \
-        "$(echo "$rss / 1024" | bc -l)" "$one" "$(echo "$one / $check" | bc -l)" \
-        "$cached" "$(echo "$check / $cached" | bc -l)"
+    row "generated-$n" "$tree"
+done
+for tree in "${trees[@]}"; do
+    row "$(basename "$tree")" "$tree"
 done

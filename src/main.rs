@@ -9,6 +9,7 @@
 use anyhow::{bail, Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::collections::BTreeMap;
+use std::io::IsTerminal;
 use std::path::PathBuf;
 use std::process::ExitCode;
 use tauscan::eval::num::Target;
@@ -96,6 +97,9 @@ struct ScanArgs {
     /// Paths (relative to the scan root) not to read; `*`, `**` and `?` work. Repeatable.
     #[arg(long, value_name = "GLOB")]
     exclude: Vec<String>,
+    /// No progress line on standard error, even on a terminal.
+    #[arg(short, long)]
+    quiet: bool,
     /// Take the files and their -D/-I flags from a JSON compilation database.
     #[arg(long, value_name = "FILE")]
     compile_commands: Option<PathBuf>,
@@ -242,8 +246,14 @@ enum DebugWhat {
         #[command(flatten)]
         scan: ScanArgs,
     },
-    /// Walk and parse every file as `check` does, and nothing more (the benchmark's floor).
+    /// Walk and parse every file as `check` does, lowering included, and nothing more.
     ParseOnly {
+        #[command(flatten)]
+        scan: ScanArgs,
+    },
+    /// Walk and parse every file with tree-sitter alone, keeping nothing (the benchmark's
+    /// floor).
+    BareParse {
         #[command(flatten)]
         scan: ScanArgs,
     },
@@ -365,6 +375,9 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
         exclude,
         include: spec.include.clone(),
         root,
+        // A progress line only where someone watches: standard error is a terminal.
+        progress: (!args.quiet && std::io::stderr().is_terminal())
+            .then(|| std::sync::Arc::new(scan::Progress::default())),
         cache: match &args.cache {
             Some(dir) => Some(
                 tauscan::cache::Cache::open(dir)
@@ -373,6 +386,46 @@ fn scan_options_with(args: &ScanArgs, spec: &tauscan::spec::Spec) -> Result<Scan
             None => None,
         },
     })
+}
+
+/// Runs a scan; with `options.progress`, draws a progress line on standard error while it
+/// runs (files read, files recognised, smoothers found, elapsed), cleared at the end.
+fn run_scan(options: &ScanOptions) -> scan::Scan {
+    let Some(progress) = options.progress.clone() else {
+        return scan::run(options);
+    };
+    let done = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let drawer = {
+        let done = done.clone();
+        std::thread::spawn(move || {
+            use scan::Progress as P;
+            let bar = indicatif::ProgressBar::new(0);
+            bar.set_draw_target(indicatif::ProgressDrawTarget::stderr_with_hz(8));
+            if let Ok(style) =
+                indicatif::ProgressStyle::with_template("{spinner} {msg} [{elapsed}]")
+            {
+                bar.set_style(style);
+            }
+            while !done.load(std::sync::atomic::Ordering::Relaxed) {
+                let total = P::get(&progress.files_total);
+                let read = P::get(&progress.files_read);
+                let recognised = P::get(&progress.files_recognised);
+                let found = P::get(&progress.smoothers);
+                bar.set_message(if recognised == 0 {
+                    format!("reading {read}/{total} files")
+                } else {
+                    format!("recognising {recognised}/{total} files, {found} smoothers so far")
+                });
+                bar.tick();
+                std::thread::sleep(std::time::Duration::from_millis(120));
+            }
+            bar.finish_and_clear();
+        })
+    };
+    let result = scan::run(options);
+    done.store(true, std::sync::atomic::Ordering::Relaxed);
+    let _ = drawer.join();
+    result
 }
 
 /// The deepest folder that holds every file.
@@ -461,7 +514,7 @@ fn run(cli: Cli) -> Result<Status> {
             let loaded = load_spec(spec, &args.paths)?;
             let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
             let options = scan_options_with(&args, &spec)?;
-            let mut result = scan::run(&options);
+            let mut result = run_scan(&options);
             print_notes(&result);
             // The spec's rates and stated coefficients: the rate each update runs at,
             // next to the one its coefficient was designed for.
@@ -500,7 +553,7 @@ fn run(cli: Cli) -> Result<Status> {
             let loaded = load_spec(spec, &args.paths)?;
             let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
             let options = scan_options_with(&args, &spec)?;
-            let mut result = scan::run(&options);
+            let mut result = run_scan(&options);
             print_notes(&result);
             if result.incomplete {
                 bail!("the scan is incomplete (see the notes above); no baseline written");
@@ -540,7 +593,7 @@ fn run(cli: Cli) -> Result<Status> {
                 DebugWhat::Ir { file } => (file, true),
                 DebugWhat::Candidates { file, scan: args } => {
                     let options = scan_options(args)?;
-                    let scanned = scan::run(&options);
+                    let scanned = run_scan(&options);
                     let lines =
                         tauscan::recognise::explain(&scanned.program, &options.recognise, file);
                     let mut text = String::new();
@@ -551,9 +604,12 @@ fn run(cli: Cli) -> Result<Status> {
                     emit(&text, &None)?;
                     return Ok(Status::Clean);
                 }
-                DebugWhat::ParseOnly { scan: args } => {
+                DebugWhat::ParseOnly { scan: args } | DebugWhat::BareParse { scan: args } => {
                     let options = scan_options(args)?;
-                    let seen = scan::parse_only(&options);
+                    let seen = match &what {
+                        DebugWhat::BareParse { .. } => scan::bare_parse(&options),
+                        _ => scan::parse_only(&options),
+                    };
                     emit(
                         &format!(
                             "{} files, {} bytes, {} lines parsed\n",
@@ -632,7 +688,7 @@ fn check(
         None => None,
     };
     let options = scan_options_with(args, &spec)?;
-    let mut result = scan::run(&options);
+    let mut result = run_scan(&options);
     print_notes(&result);
     if matches!(format, Format::Table) && nothing_read(&result) {
         eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
@@ -802,7 +858,7 @@ fn report(args: &ScanArgs, spec_path: Option<PathBuf>, out: &std::path::Path) ->
         .map(|(_, _, s)| s.clone())
         .unwrap_or_default();
     let options = scan_options_with(args, &spec)?;
-    let mut result = scan::run(&options);
+    let mut result = run_scan(&options);
     print_notes(&result);
     if nothing_read(&result) {
         eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
@@ -916,6 +972,7 @@ fn scan_side(args: &ScanArgs, root: &std::path::Path) -> Result<scan::Scan> {
         exclude: args.exclude.clone(),
         compile_commands: None,
         cache: args.cache.clone(),
+        quiet: args.quiet,
     };
     let spec_path = root.join(tauscan::spec::FILE_NAME);
     let loaded = if spec_path.is_file() {
@@ -925,7 +982,7 @@ fn scan_side(args: &ScanArgs, root: &std::path::Path) -> Result<scan::Scan> {
     };
     let spec = loaded.map(|(_, _, s)| s).unwrap_or_default();
     let options = scan_options_with(&side_args, &spec)?;
-    let mut result = scan::run(&options);
+    let mut result = run_scan(&options);
     print_notes(&result);
     if result.incomplete {
         bail!(
@@ -1040,7 +1097,7 @@ fn init(args: &ScanArgs, output: Option<PathBuf>, tolerance: f64, force: bool) -
         bail!("--tolerance {tolerance}: want a percentage between 0 and 100");
     }
     let options = scan_options(args)?;
-    let result = scan::run(&options);
+    let result = run_scan(&options);
     print_notes(&result);
     let path = output.unwrap_or_else(|| result.root.join(tauscan::spec::FILE_NAME));
     if path.exists() && !force {

@@ -166,6 +166,12 @@ fn parse_tree(source: &[u8]) -> Option<Tree> {
     })
 }
 
+/// Parses `source` with tree-sitter and keeps nothing: no rewriting, no lowering. The
+/// benchmark's floor (what any tool built on this grammar pays). Whether a tree came out.
+pub fn bare_parse(source: &[u8]) -> bool {
+    parse_tree(source).is_some()
+}
+
 /// Parses only `range` of `source` (byte offsets and lines stay those of the file).
 fn parse_range(source: &[u8], range: std::ops::Range<usize>) -> Option<Tree> {
     let point = |offset: usize| {

@@ -13,6 +13,7 @@ use crate::recognise::{self, RecogniseOptions, Recognition};
 use crate::walk::{self, WalkResult};
 use rayon::prelude::*;
 use std::path::PathBuf;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 #[derive(Debug, Clone, Default)]
 pub struct ScanOptions {
@@ -28,6 +29,28 @@ pub struct ScanOptions {
     pub root: Option<PathBuf>,
     /// Where to keep each file's lowered IR between scans (`--cache`).
     pub cache: Option<Cache>,
+    /// Counters a caller may show while the scan runs (the CLI's progress line).
+    pub progress: Option<std::sync::Arc<Progress>>,
+}
+
+/// How far a scan has come, as counters another thread may read at any time: the files
+/// found, read and recognised, and the smoothers found so far. Nothing is drawn here.
+#[derive(Debug, Default)]
+pub struct Progress {
+    pub files_total: AtomicUsize,
+    pub files_read: AtomicUsize,
+    pub files_recognised: AtomicUsize,
+    pub smoothers: AtomicUsize,
+}
+
+impl Progress {
+    pub fn get(counter: &AtomicUsize) -> usize {
+        counter.load(Ordering::Relaxed)
+    }
+
+    pub(crate) fn add(counter: &AtomicUsize, n: usize) {
+        counter.fetch_add(n, Ordering::Relaxed);
+    }
 }
 
 /// A file's IR: from the cache when it has this file's bytes, else parsed (and stored).
@@ -125,6 +148,21 @@ pub struct ParseOnly {
 /// Walks and parses every file exactly as `run` does (same walker, same pool, same
 /// lowering) and keeps nothing: the floor the full check is measured against.
 pub fn parse_only(options: &ScanOptions) -> ParseOnly {
+    read_and(options, |i, bytes| {
+        drop(crate::parse::parse_file(FileId(i as u32), bytes));
+    })
+}
+
+/// Walks and reads every file and parses it with tree-sitter alone, in parallel, keeping
+/// nothing: the floor `bench/` measures the scan against.
+pub fn bare_parse(options: &ScanOptions) -> ParseOnly {
+    read_and(options, |_, bytes| {
+        crate::parse::bare_parse(bytes);
+    })
+}
+
+/// Walks the paths and runs `each` on every file's bytes on the worker pool, counting.
+fn read_and(options: &ScanOptions, each: impl Fn(usize, &[u8]) + Sync) -> ParseOnly {
     let work = || {
         let skip = |rel: &str| excluded(&options.exclude, rel);
         let walked = walk::walk(&options.paths, options.root.as_deref(), &skip);
@@ -134,8 +172,7 @@ pub fn parse_only(options: &ScanOptions) -> ParseOnly {
             .enumerate()
             .map(|(i, source)| match std::fs::read(&source.absolute) {
                 Ok(bytes) => {
-                    let ir = crate::parse::parse_file(FileId(i as u32), &bytes);
-                    drop(ir);
+                    each(i, &bytes);
                     ParseOnly {
                         files: 1,
                         bytes: bytes.len() as u64,
@@ -198,6 +235,9 @@ fn run_here(options: &ScanOptions) -> Scan {
         })
         .collect();
     let incomplete = walked.missing_inputs || walked.problems.iter().any(|p| p.incomplete);
+    if let Some(p) = &options.progress {
+        Progress::add(&p.files_total, walked.files.len());
+    }
 
     let parsed: Vec<(FileIr, Option<String>)> = walked
         .files
@@ -205,6 +245,9 @@ fn run_here(options: &ScanOptions) -> Scan {
         .enumerate()
         .map(|(i, source)| {
             let id = FileId(i as u32);
+            if let Some(p) = &options.progress {
+                Progress::add(&p.files_read, 1);
+            }
             match std::fs::read(&source.absolute) {
                 // A file named on the command line that holds NUL bytes is not C text.
                 Ok(bytes) if source.named && bytes.contains(&0) => (
@@ -273,7 +316,8 @@ fn analyse(
         files.push(ir);
     }
     let program = Program::build(files, paths, options.program.clone());
-    let recognition = recognise::recognise(&program, &options.recognise);
+    let recognition =
+        recognise::recognise_counting(&program, &options.recognise, options.progress.as_deref());
     for note in &recognition.notes {
         notes.push(ScanNote {
             file: program.path(note.span.file).to_string(),

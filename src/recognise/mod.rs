@@ -236,13 +236,29 @@ struct FilePart {
 
 /// Finds every smoother of the program.
 pub fn recognise(program: &Program, options: &RecogniseOptions) -> Recognition {
+    recognise_counting(program, options, None)
+}
+
+/// `recognise`, counting files done and smoothers found in `progress` as it goes.
+pub fn recognise_counting(
+    program: &Program,
+    options: &RecogniseOptions,
+    progress: Option<&crate::scan::Progress>,
+) -> Recognition {
     use rayon::prelude::*;
     let helpers = walk::Helpers::default();
     // Pass 1, one file per worker (so each file's budget is spent in a fixed order): every
     // function's own updates, and the updates filter functions hand to their callers.
     let parts: Vec<FilePart> = (0..program.files.len())
         .into_par_iter()
-        .map(|fi| first_pass(program, fi, &helpers, options))
+        .map(|fi| {
+            let part = first_pass(program, fi, &helpers, options);
+            if let Some(p) = progress {
+                crate::scan::Progress::add(&p.files_recognised, 1);
+                crate::scan::Progress::add(&p.smoothers, part.smoothers.len());
+            }
+            part
+        })
         .collect();
     let mut result = Recognition::default();
     let mut summaries = walk::Summaries::default();
