@@ -241,7 +241,10 @@ fn the_demo_page_holds_every_smoother_and_what_the_gate_found() {
     // One summary row and one section per smoother, with the verdict the gate gives.
     let summary = &html[html.find("<table class=\"summary\">").unwrap()..];
     let summary = &summary[..summary.find("</table>").unwrap()];
-    assert_eq!(summary.matches("<tr><td>").count(), smoothers.len());
+    assert_eq!(
+        summary.matches("<tr><td class=\"id\">").count(),
+        smoothers.len()
+    );
     assert_eq!(
         html.matches("<section class=\"smoother\"").count(),
         smoothers.len()
@@ -304,6 +307,47 @@ fn the_demo_page_holds_every_smoother_and_what_the_gate_found() {
     // The cascade of the demo is drawn whole as well, in both plots.
     let slow = section_of(&html, "light.c::light_sample::lux_slow");
     assert_eq!(slow.matches("whole cascade (2 stages)").count(), 2);
+}
+
+#[test]
+fn ids_in_the_summary_break_only_between_their_parts() {
+    // Source: the HTML standard's `<wbr>` (a line-break opportunity) and CSS Text 3's
+    // `overflow-wrap: normal` (no break inside a word otherwise), from memory.
+    let dir = tempfile::tempdir().unwrap();
+    let html = report(
+        &fixture("demo-greenhouse"),
+        &dir.path().join("demo.html"),
+        &[],
+    );
+    let summary = &html[html.find("<table class=\"summary\">").unwrap()..];
+    let summary = &summary[..summary.find("</table>").unwrap()];
+    assert!(
+        summary.contains(
+            "<code>climate.<wbr>c::<wbr>climate_<wbr>step::<wbr>air_<wbr>temp_<wbr>c.<wbr>y</code>"
+        ),
+        "{summary}"
+    );
+    assert!(summary.contains("<code>vent_<wbr>motor.<wbr>c:14</code>"));
+    // Between the separators the words stay whole: no break opportunity inside them.
+    for cell in summary.split("<td class=\"id\">").skip(1) {
+        let code = &cell[cell.find("<code>").unwrap() + 6..cell.find("</code>").unwrap()];
+        for piece in code.split("<wbr>") {
+            let last = piece.chars().last().unwrap();
+            assert!(
+                piece == code.rsplit("<wbr>").next().unwrap()
+                    || matches!(last, '.' | '_' | '/' | ':')
+                    || piece.ends_with("-&gt;"),
+                "a break after {piece:?} in {code}"
+            );
+        }
+    }
+    // The id cells ask for no break inside a word; other cells may still break anywhere.
+    let style = &html[html.find("<style>").unwrap()..html.find("</style>").unwrap()];
+    let rule = style
+        .lines()
+        .find(|l| l.starts_with("td.id code"))
+        .expect("a rule for the id cells");
+    assert!(rule.contains("overflow-wrap: normal") && rule.contains("word-break: normal"));
 }
 
 #[test]
