@@ -351,6 +351,77 @@ fn ids_in_the_summary_break_only_between_their_parts() {
 }
 
 #[test]
+fn each_section_tells_the_running_rate_from_the_design_rate() {
+    // Source: fixtures/demo-greenhouse read by hand: tauscan.yaml line 5 gives sensor_task a
+    // 50 ms period (20 Hz), control.c:26 calls light_sample from it, and light.c derives
+    // LUX_ALPHA from `#define SENSOR_DT 0.01f`, a 100 Hz design; the vent current's shift
+    // names no period; on_pipe_reading (line 6) runs per event and calls heater_pipe_reading
+    // at control.c:32.
+    let dir = tempfile::tempdir().unwrap();
+    let demo = fixture("demo-greenhouse");
+    let html = report(&demo, &dir.path().join("demo.html"), &[]);
+    let fast = section_of(&html, "light.c::light_sample::lux_fast");
+    assert!(
+        fast.contains("<dt>rate</dt><dd>runs at 20 Hz (tauscan.yaml:5: sensor_task() runs at 20 Hz, via sensor_task -&gt; light_sample, control.c:26); coefficient designed for 100 Hz (`#define SENSOR_DT 0.01f`)</dd>"),
+        "{fast}"
+    );
+    assert!(!fast.contains("rate doubts"), "no doubt about this rate");
+    let vent = section_of(&html, "vent_motor.c::vent_current_sample::vent_current_ma");
+    assert!(
+        vent.contains("runs at 200 Hz (tauscan.yaml:4: control_tick() runs at 200 Hz, via control_tick -&gt; vent_current_sample, control.c:21); the coefficient names no rate of its own"),
+        "{vent}"
+    );
+    let pipe = section_of(&html, "heater.c::heater_pipe_reading::pipe_c");
+    assert!(
+        pipe.contains("runs per event (tauscan.yaml:6: on_pipe_reading() runs per event, via on_pipe_reading -&gt; heater_pipe_reading, control.c:32), at no fixed rate"),
+        "{pipe}"
+    );
+
+    let md = report(&demo, &dir.path().join("demo.md"), &[]);
+    assert!(
+        md.contains("- **rate:** runs at 20 Hz (tauscan.yaml:5: sensor\\_task() runs at 20 Hz, via sensor\\_task -&gt; light\\_sample, control.c:26); coefficient designed for 100 Hz ('\\#define SENSOR\\_DT 0.01f')\n"),
+        "{md}"
+    );
+
+    // Without the spec, the design rate is the one the figures use, and nothing runs.
+    let alone = dir.path().join("light");
+    std::fs::create_dir(&alone).unwrap();
+    std::fs::copy(demo.join("light.c"), alone.join("light.c")).unwrap();
+    let html = report(&alone, &dir.path().join("light.html"), &[]);
+    let fast = section_of(&html, "light.c::light_sample::lux_fast");
+    assert!(
+        fast.contains("runs at a rate not given: no spec rate and no --rate reach it; coefficient designed for 100 Hz (`#define SENSOR_DT 0.01f`), the rate the figures use"),
+        "{fast}"
+    );
+}
+
+#[test]
+fn rate_doubts_are_shown_in_the_section() {
+    // Source: fixtures/rates/indirect read by hand (as in tests/rates.rs):
+    // wash_service_menu, which no rate entry reaches, also calls wash_tank_sample.
+    let dir = tempfile::tempdir().unwrap();
+    let html = report(
+        &fixture("rates/indirect"),
+        &dir.path().join("wash.html"),
+        &[],
+    );
+    let tank = section_of(&html, "sensors.c::wash_tank_sample::wash_tank_mm");
+    let doubts = &tank[tank
+        .find("<dt>rate doubts</dt><dd>")
+        .expect("a doubts line")..];
+    let doubts = &doubts[..doubts.find("</dd>").unwrap()];
+    assert!(
+        doubts.contains("partial rate") && doubts.contains("wash_service_menu"),
+        "{doubts}"
+    );
+    let caustic = section_of(&html, "sensors.c::wash_caustic_sample::wash_caustic");
+    assert!(
+        !caustic.contains("rate doubts"),
+        "reached only through the table"
+    );
+}
+
+#[test]
 fn the_spec_requirements_are_drawn_on_the_plots() {
     // Source: fixtures/report/kiln-settle/tauscan.yaml (95 % within 3 s and a cutoff of at
     // most 0.5 Hz for the temperature, at least 1 Hz for the door); the step of alpha 1/8 at

@@ -424,11 +424,10 @@ fn entry_html(e: &Entry, out: &mut String) {
         format!("<code>{}</code>", escape(&e.update)),
     );
     item("coefficient", escape(&e.coefficient));
-    item("rate", escape(&e.rate_text));
-    item(
-        "rate source",
-        escape(e.rate_source.as_deref().unwrap_or("none found")),
-    );
+    item("rate", escape(&e.rate_story));
+    if !e.rate_doubts.is_empty() {
+        item("rate doubts", escape(&e.rate_doubts.join("; ")));
+    }
     item("cutoff", escape(&e.cutoff_text));
     item("lag behind a ramp", escape(&e.lag_text));
     if let Some(f) = &e.figures {
