@@ -421,6 +421,178 @@ fn rate_doubts_are_shown_in_the_section() {
     );
 }
 
+/// The plots' SVG documents in a page.
+fn svgs(html: &str) -> Vec<&str> {
+    html.split("<svg")
+        .skip(1)
+        .map(|rest| &rest[..rest.find("</svg>").unwrap()])
+        .collect()
+}
+
+#[test]
+fn a_page_of_200_smoothers_stays_under_5_mb() {
+    // 200 kiln zones, each its own function with its own EMA, ten files of twenty.
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("kiln");
+    for file in 0..10 {
+        let mut source = String::new();
+        for zone in file * 20..file * 20 + 20 {
+            source.push_str(&format!(
+                "void kiln_zone_{zone}_sample(float u) {{ static float y; y += 0.05f * (u - y); }}\n"
+            ));
+        }
+        common::write(&tree, &format!("zones_{file}.c"), source);
+    }
+    let run = common::tauscan_in(
+        &tree,
+        &["report", ".", "--out", "zones.html"],
+        common::LIMIT,
+    );
+    run.assert_exit(0, "a document of 200 smoothers");
+    let html = std::fs::read_to_string(tree.join("zones.html")).unwrap();
+    assert_eq!(html.matches("<section class=\"smoother\"").count(), 200);
+    assert_eq!(svgs(&html).len(), 400, "a step and a magnitude plot each");
+    assert!(
+        html.len() < 5 * 1024 * 1024,
+        "the page of 200 smoothers is {} bytes",
+        html.len()
+    );
+}
+
+#[test]
+fn the_demo_page_is_small() {
+    // Measured: the demo's page was 566,424 bytes when every plot carried a dense minor grid,
+    // every dash as an element and every style as attributes; 200 KiB is the bound now.
+    let dir = tempfile::tempdir().unwrap();
+    let html = report(
+        &fixture("demo-greenhouse"),
+        &dir.path().join("demo.html"),
+        &[],
+    );
+    assert!(
+        html.len() < 200 * 1024,
+        "the demo page is {} bytes",
+        html.len()
+    );
+    // The grid is a few major lines: at most seven a side, so fourteen lines a plot.
+    for svg in svgs(&html) {
+        let grid = svg.matches("class=\"ke1e1e1-1\"").count();
+        assert!(grid <= 14, "{grid} grid lines");
+        assert!(!svg.contains("opacity=\"1\""), "a default attribute left");
+    }
+}
+
+#[test]
+fn the_labels_of_marks_and_cutoffs_never_overlap() {
+    // The demo's moving average reaches 90 and 95 % at the same update, and the cascade's
+    // magnitude plot marks two cutoffs close together: their labels sit apart. Boxes are
+    // estimated as the plot estimates them (`plot::text_width`).
+    let dir = tempfile::tempdir().unwrap();
+    let html = report(
+        &fixture("demo-greenhouse"),
+        &dir.path().join("demo.html"),
+        &[],
+    );
+    let mut labels_seen = 0;
+    for svg in svgs(&html) {
+        let mut boxes: Vec<(f64, f64, f64, f64, String)> = Vec::new();
+        for text in svg.split("<text class=\"label ").skip(1) {
+            let attribute = |name: &str| -> f64 {
+                text.split(&format!(" {name}=\""))
+                    .nth(1)
+                    .and_then(|v| v.split('"').next())
+                    .and_then(|v| v.parse().ok())
+                    .unwrap()
+            };
+            let content = &text[text.find('>').unwrap() + 1..text.find("</text>").unwrap()];
+            let size = attribute("font-size");
+            boxes.push((
+                attribute("x"),
+                attribute("y"),
+                plot::text_width(content, size),
+                size * 1.2,
+                content.to_string(),
+            ));
+        }
+        for (i, a) in boxes.iter().enumerate() {
+            for b in &boxes[i + 1..] {
+                let apart =
+                    a.0 + a.2 <= b.0 || b.0 + b.2 <= a.0 || a.1 + a.3 <= b.1 || b.1 + b.3 <= a.1;
+                assert!(apart, "{} and {} overlap: {a:?} {b:?}", a.4, b.4);
+            }
+        }
+        labels_seen += boxes.len();
+    }
+    // Seven plotted smoothers, each with 63/90/95 %, -3 dB and a cutoff, and the cascade's
+    // own cutoff: 7 * 5 + 1.
+    assert_eq!(labels_seen, 36);
+    let soil = section_of(&html, "soil.c::soil_sample::soil_sum");
+    assert!(soil.contains(">90 %</text>") && soil.contains(">95 %</text>"));
+}
+
+#[test]
+fn the_page_prints_plots_at_their_own_size_with_legible_text() {
+    // Source: CSS 2 and CSS Values 4: 1 px = 0.75 pt; A4 is 210 mm wide, 182 mm (688 px)
+    // between the page's 14 mm margins (from memory). At the plot's own width a user unit
+    // of the SVG is one CSS pixel.
+    let dir = tempfile::tempdir().unwrap();
+    let html = report(
+        &fixture("demo-greenhouse"),
+        &dir.path().join("demo.html"),
+        &[],
+    );
+    let style = &html[html.find("<style>").unwrap()..html.find("</style>").unwrap()];
+    let print = &style[style.find("@media print {").expect("a print block")..];
+    let print = &print[..print.find("\n}\n").unwrap()];
+    let width_rule = print
+        .lines()
+        .find(|l| l.trim_start().starts_with("figure.plot svg {"))
+        .expect("a printed width for the plots");
+    let printed_px: f64 = width_rule
+        .split("width:")
+        .nth(1)
+        .and_then(|w| w.trim().split("px").next())
+        .and_then(|w| w.parse().ok())
+        .expect("a width in px");
+    assert!(printed_px <= 688.0, "the plots fit between the margins");
+    assert!(print.contains("section.smoother { break-inside: avoid; }"));
+    assert!(
+        !print.contains("break-before: page"),
+        "no page per smoother"
+    );
+
+    let mut sizes = Vec::new();
+    let mut ticks = 0;
+    for svg in svgs(&html) {
+        let plot_width: f64 = svg
+            .split("width=\"")
+            .nth(1)
+            .and_then(|w| w.split('"').next())
+            .and_then(|w| w.parse().ok())
+            .unwrap();
+        let scale = printed_px / plot_width;
+        for text in svg.split("<text ").skip(1) {
+            let tag = &text[..text.find('>').unwrap()];
+            let size: f64 = tag
+                .split("font-size=\"")
+                .nth(1)
+                .and_then(|v| v.split('"').next())
+                .and_then(|v| v.parse().ok())
+                .unwrap_or_else(|| panic!("a text without its size: {tag}"));
+            // Tick labels are the texts anchored at their end (y axis) or middle under the
+            // axis (x axis), without a rotation; the title and axis descriptions are larger.
+            if tag.contains("text-anchor=\"end\"") {
+                ticks += 1;
+                assert!(size >= 12.0, "a tick label of {size} units");
+            }
+            sizes.push(size * scale * 0.75);
+        }
+    }
+    assert!(ticks >= 14, "only {ticks} tick labels seen");
+    let smallest = sizes.iter().copied().fold(f64::INFINITY, f64::min);
+    assert!(smallest >= 8.0, "plot text prints at {smallest} pt");
+}
+
 #[test]
 fn the_spec_requirements_are_drawn_on_the_plots() {
     // Source: fixtures/report/kiln-settle/tauscan.yaml (95 % within 3 s and a cutoff of at

@@ -124,8 +124,15 @@ footer p.caution { border-left: 4px solid var(--warning); padding-left: .6rem; }
 @page { size: A4; margin: 14mm; }
 @media print {
   body { max-width: none; padding: 0; font-size: 10pt; }
-  section.smoother { break-before: page; }
-  figure.plot, pre.source, tr { break-inside: avoid; }
+  section.smoother { break-inside: avoid; }
+  h2, h3 { break-after: avoid; }
+  figure.plot, pre.source, tr, dl.figures { break-inside: avoid; }
+  pre.source span.line { white-space: pre-wrap; }
+  .plots { display: block; }
+  figure.plot { margin: 0 0 3mm; width: fit-content; }
+  /* Plots print at their own width, 580 px of the 688 an A4 page holds between its margins,
+     so a user unit is a CSS pixel and the smallest plot text (11 units) is 8.25 pt. */
+  figure.plot svg { width: 580px; max-width: none; height: auto; }
   a { color: inherit; text-decoration: none; }
 }
 "#;
@@ -535,8 +542,9 @@ pub fn render(doc: &Document) -> String {
     out.push_str("<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; style-src 'unsafe-inline'\">\n");
     out.push_str("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n");
     out.push_str(&format!(
-        "<title>Smoothers of {}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n",
-        escape(&doc.header.root)
+        "<title>Smoothers of {}</title>\n<style>{STYLE}{}</style>\n</head>\n<body>\n",
+        escape(&doc.header.root),
+        plot::css()
     ));
     header_html(doc, &mut out);
     out.push_str("<main>\n");
