@@ -160,6 +160,11 @@ pub struct Entry {
     /// The rate in words with its kind: `200 Hz (spec)`, `unknown`, `per event`.
     pub rate_text: String,
     pub rate_source: Option<String>,
+    /// The rate it runs at and the rate its coefficient was designed for, each with where it
+    /// comes from (see [`rate_story`]).
+    pub rate_story: String,
+    /// What may make the running rate another one, in words.
+    pub rate_doubts: Vec<String>,
     pub cutoff_text: String,
     pub lag_text: String,
     /// Settling time to the spec's fraction when it sets one, else to 95 %.
@@ -392,6 +397,58 @@ fn coefficient_text(s: &crate::recognise::Smoother) -> String {
     }
 }
 
+/// The rates of a smoother in words: the rate the update runs at, with where that comes from
+/// and the way it reaches the update, then the rate its coefficient was designed for, with
+/// the constant that says so. For example `runs at 20 Hz (tauscan.yaml:5: sensor_task() runs
+/// at 20 Hz, via sensor_task -> light_sample, control.c:26); coefficient designed for 100 Hz
+/// (`#define SENSOR_DT 0.01f`)`.
+pub fn rate_story(program: &crate::index::Program, s: &crate::recognise::Smoother) -> String {
+    use crate::context::{path_text, RateKind};
+    use crate::report::json::{design_rate, running_rate};
+    let usable = |hz: Option<f64>| hz.filter(|r| r.is_finite() && *r > 0.0);
+    let running = usable(running_rate(s));
+    let design = usable(design_rate(s));
+    // Where the running rate comes from and how it reaches the update. A rate of the
+    // program's own constants is the design rate, said in the second half.
+    let mut why: Vec<String> = Vec::new();
+    if s.rate.kind != RateKind::Constant {
+        why.extend(s.rate.source.clone());
+    }
+    if !s.rate.path.is_empty() {
+        why.push(format!("via {}", path_text(program, &s.rate.path)));
+    }
+    let why = if why.is_empty() {
+        String::new()
+    } else {
+        format!(" ({})", why.join(", "))
+    };
+    let runs = match (running, s.rate.kind) {
+        (Some(r), _) => format!("runs at {}{why}", hertz(r)),
+        (None, RateKind::Event) => format!("runs per event{why}, at no fixed rate"),
+        (None, RateKind::Adaptive) => {
+            format!("runs at a time step measured while running{why}")
+        }
+        (None, _) => format!("runs at a rate not given{why}: no spec rate and no --rate reach it"),
+    };
+    let designed = match design {
+        Some(d) => {
+            let source = match &s.code_rate {
+                Some(code) => code.source.clone(),
+                None => s.rate.source.clone(),
+            };
+            let source = source.map(|x| format!(" ({x})")).unwrap_or_default();
+            let used = if running.is_none() {
+                ", the rate the figures use"
+            } else {
+                ""
+            };
+            format!("coefficient designed for {}{source}{used}", hertz(d))
+        }
+        None => "the coefficient names no rate of its own".into(),
+    };
+    format!("{runs}; {designed}")
+}
+
 /// Builds the document of a checked scan. `read` gives a scanned file's bytes (for the source
 /// lines); a file it cannot give is shown without them.
 pub fn build(
@@ -501,6 +558,8 @@ pub fn build(
             rate,
             rate_text,
             rate_source: s.rate.source.clone(),
+            rate_story: rate_story(program, s),
+            rate_doubts: s.rate.doubts.clone(),
             cutoff_text: cutoff_text(own.as_ref(), f.stage.is_some()),
             lag_text: own.as_ref().map(lag_text).unwrap_or_else(|| "-".into()),
             settle_text: f

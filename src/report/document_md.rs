@@ -184,11 +184,10 @@ fn entry_md(e: &Entry, out: &mut String) {
     item("form", format!("{}, {} arithmetic", e.form, e.arithmetic));
     item("update as read", cell(&e.update));
     item("coefficient", cell(&e.coefficient));
-    item("rate", cell(&e.rate_text));
-    item(
-        "rate source",
-        cell(e.rate_source.as_deref().unwrap_or("none found")),
-    );
+    item("rate", cell(&e.rate_story));
+    if !e.rate_doubts.is_empty() {
+        item("rate doubts", cell(&e.rate_doubts.join("; ")));
+    }
     item("cutoff", cell(&e.cutoff_text));
     item("lag behind a ramp", cell(&e.lag_text));
     item("noise reduction", cell(&e.noise_text));

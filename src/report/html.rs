@@ -46,6 +46,33 @@ pub fn escape(text: &str) -> String {
     out
 }
 
+/// [`escape`]d text with a line-break opportunity (`<wbr>`) after each separator of an id or
+/// a path: `::`, `->`, `/`, `.` and `_`. With `overflow-wrap: normal` on its cell, a long id
+/// such as `climate.c::climate_step::air_temp_c.y` then wraps between its parts, never
+/// inside a word.
+pub fn breakable(text: &str) -> String {
+    let mut out = String::with_capacity(text.len() * 2);
+    let mut previous = None;
+    for c in text.chars() {
+        let mut buffer = [0u8; 4];
+        out.push_str(&escape(c.encode_utf8(&mut buffer)));
+        let ends_separator = match c {
+            '/' | '.' | '_' => true,
+            ':' => previous == Some(':'),
+            '>' => previous == Some('-'),
+            _ => false,
+        };
+        if ends_separator {
+            out.push_str("<wbr>");
+            // A third colon starts a new pair rather than ending this one.
+            previous = None;
+        } else {
+            previous = Some(c);
+        }
+    }
+    out
+}
+
 const STYLE: &str = r#"
 :root { --ink: #1d2327; --muted: #5f6b73; --rule: #d5dadd; --pass: #1e7a3c; --error: #b3261e;
         --warning: #9a6200; --note: #2b5d9b; --hit: #fff3c4; }
@@ -68,6 +95,7 @@ caption { text-align: left; color: var(--muted); padding: .2rem 0; }
 th, td { border: 1px solid var(--rule); padding: .25rem .4rem; text-align: left;
          vertical-align: top; overflow-wrap: break-word; }
 td code { overflow-wrap: anywhere; }
+td.id code { overflow-wrap: normal; word-break: normal; }
 th { background: #f3f5f6; }
 td .source { color: var(--muted); font-size: .8rem; }
 td.num { white-space: nowrap; }
@@ -96,8 +124,15 @@ footer p.caution { border-left: 4px solid var(--warning); padding-left: .6rem; }
 @page { size: A4; margin: 14mm; }
 @media print {
   body { max-width: none; padding: 0; font-size: 10pt; }
-  section.smoother { break-before: page; }
-  figure.plot, pre.source, tr { break-inside: avoid; }
+  section.smoother { break-inside: avoid; }
+  h2, h3 { break-after: avoid; }
+  figure.plot, pre.source, tr, dl.figures { break-inside: avoid; }
+  pre.source span.line { white-space: pre-wrap; }
+  .plots { display: block; }
+  figure.plot { margin: 0 0 3mm; width: fit-content; }
+  /* Plots print at their own width, 580 px of the 688 an A4 page holds between its margins,
+     so a user unit is a CSS pixel and the smallest plot text (11 units) is 8.25 pt. */
+  figure.plot svg { width: 580px; max-width: none; height: auto; }
   a { color: inherit; text-decoration: none; }
 }
 "#;
@@ -204,10 +239,10 @@ fn summary_html(doc: &Document, out: &mut String) {
         out.push_str("</tr></thead>\n<tbody>\n");
         for e in &doc.entries {
             out.push_str(&format!(
-                "<tr><td><a href=\"#{}\"><code>{}</code></a></td><td><code>{}:{}</code></td><td>{}, {}</td><td>{}</td><td><span class=\"rate\">{}</span><br><span class=\"source\">{}</span></td><td class=\"num\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>\n",
+                "<tr><td class=\"id\"><a href=\"#{}\"><code>{}</code></a></td><td class=\"id\"><code>{}:{}</code></td><td>{}, {}</td><td>{}</td><td><span class=\"rate\">{}</span><br><span class=\"source\">{}</span></td><td class=\"num\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>\n",
                 e.anchor,
-                escape(&e.id),
-                escape(&e.file),
+                breakable(&e.id),
+                breakable(&e.file),
                 e.line,
                 e.form,
                 e.arithmetic,
@@ -232,10 +267,10 @@ fn summary_html(doc: &Document, out: &mut String) {
                 let stages: Vec<String> = c
                     .stage_ids
                     .iter()
-                    .map(|id| format!("<code>{}</code>", escape(id)))
+                    .map(|id| format!("<code>{}</code>", breakable(id)))
                     .collect();
                 out.push_str(&format!(
-                    "<tr><td><a href=\"#{}\">{}</a></td><td class=\"num\">{}</td><td>{}</td><td>{}</td></tr>\n",
+                    "<tr><td class=\"id\"><a href=\"#{}\">{}</a></td><td class=\"num\">{}</td><td>{}</td><td>{}</td></tr>\n",
                     e.anchor,
                     stages.join(" → "),
                     escape(&cascade_cutoff_text(c)),
@@ -396,11 +431,10 @@ fn entry_html(e: &Entry, out: &mut String) {
         format!("<code>{}</code>", escape(&e.update)),
     );
     item("coefficient", escape(&e.coefficient));
-    item("rate", escape(&e.rate_text));
-    item(
-        "rate source",
-        escape(e.rate_source.as_deref().unwrap_or("none found")),
-    );
+    item("rate", escape(&e.rate_story));
+    if !e.rate_doubts.is_empty() {
+        item("rate doubts", escape(&e.rate_doubts.join("; ")));
+    }
     item("cutoff", escape(&e.cutoff_text));
     item("lag behind a ramp", escape(&e.lag_text));
     if let Some(f) = &e.figures {
@@ -508,8 +542,9 @@ pub fn render(doc: &Document) -> String {
     out.push_str("<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; style-src 'unsafe-inline'\">\n");
     out.push_str("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n");
     out.push_str(&format!(
-        "<title>Smoothers of {}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n",
-        escape(&doc.header.root)
+        "<title>Smoothers of {}</title>\n<style>{STYLE}{}</style>\n</head>\n<body>\n",
+        escape(&doc.header.root),
+        plot::css()
     ));
     header_html(doc, &mut out);
     out.push_str("<main>\n");
@@ -539,7 +574,29 @@ pub fn render(doc: &Document) -> String {
 
 #[cfg(test)]
 mod tests {
-    use super::escape;
+    use super::{breakable, escape};
+
+    #[test]
+    fn ids_break_only_after_their_separators() {
+        // Source: the rule of `breakable` itself, worked by hand on each separator; `<wbr>`
+        // is the HTML standard's line-break opportunity (from memory).
+        assert_eq!(
+            breakable("climate.c::climate_step::air_temp_c.y"),
+            "climate.<wbr>c::<wbr>climate_<wbr>step::<wbr>air_<wbr>temp_<wbr>c.<wbr>y"
+        );
+        assert_eq!(
+            breakable("lpf.c::lpf_apply::f->y"),
+            "lpf.<wbr>c::<wbr>lpf_<wbr>apply::<wbr>f-&gt;<wbr>y"
+        );
+        assert_eq!(breakable("src/a:b"), "src/<wbr>a:b");
+        assert_eq!(breakable(":::x"), "::<wbr>:x");
+        assert_eq!(breakable("plain"), "plain");
+        // What it inserts is the only markup: the text itself is escaped as everywhere.
+        assert_eq!(
+            breakable("a<script>_&'\"\u{202e}"),
+            "a&lt;script&gt;_<wbr>&amp;&#39;&quot;\\u{202e}"
+        );
+    }
 
     #[test]
     fn escaped_text_holds_no_markup_and_shows_hidden_characters() {
