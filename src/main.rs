@@ -113,7 +113,7 @@ struct ScanArgs {
 enum Command {
     /// List every recursive smoother with its coefficient, rate and figures.
     #[command(
-        after_help = "Exit status: 0 the scan completed; 2 a usage error, or the scan is incomplete (a path\nmissing, a file unreadable, no C file found).\n\nExample:\n  tauscan list firmware/ --format json -o smoothers.json\n\nRATE is the rate the update runs at where the spec (its rates: carried down the call\ngraph) or --rate gives one (`run`), else the rate the coefficient's own constants were\ndesigned for (`design`); both are shown when they differ."
+        after_help = "Exit status: 0 the scan completed; 2 a usage or spec error, or the scan is incomplete (a\npath missing, a file unreadable, no C file found).\n\nExample:\n  tauscan list firmware/ --format json -o smoothers.json\n\nRATE is the rate the update runs at where the spec (its rates: carried down the call\ngraph) or --rate gives one (`run`), else the rate the coefficient's own constants were\ndesigned for (`design`); both are shown when they differ."
     )]
     List {
         #[command(flatten)]
