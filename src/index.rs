@@ -101,9 +101,10 @@ pub struct Program {
     pub paths: Vec<String>,
     pub options: ProgramOptions,
     macros: HashMap<String, Vec<(usize, usize)>>,
-    macro_active: HashMap<(usize, usize), bool>,
+    /// Whether each macro's `#if` branch is built, by file and index within the file.
+    macro_active: Vec<Vec<bool>>,
     /// Object-like macro bodies parsed as expressions, on first use.
-    macro_exprs: HashMap<(usize, usize), std::sync::OnceLock<Option<Expr>>>,
+    macro_exprs: Vec<Vec<std::sync::OnceLock<Option<Expr>>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
     /// Globals by file and name: the common lookup, kept cheap when a name recurs in
@@ -132,7 +133,7 @@ pub struct Program {
     /// Each file's include closure (itself and what it includes, transitively), on first use.
     closures: Vec<std::sync::OnceLock<Vec<usize>>>,
     /// Every macro body parsed as statements or an expression, on first use.
-    macro_bodies: HashMap<MacroRef, std::sync::OnceLock<MacroBody>>,
+    macro_bodies: Vec<Vec<std::sync::OnceLock<MacroBody>>>,
     /// `#if` texts already judged (three-valued).
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
 }
@@ -144,8 +145,8 @@ impl Program {
             paths,
             options,
             macros: HashMap::new(),
-            macro_active: HashMap::new(),
-            macro_exprs: HashMap::new(),
+            macro_active: Vec::new(),
+            macro_exprs: Vec::new(),
             enums: HashMap::new(),
             globals: HashMap::new(),
             globals_by_file: HashMap::new(),
@@ -163,7 +164,7 @@ impl Program {
             defined_tri: HashMap::new(),
             includes: Vec::new(),
             closures: Vec::new(),
-            macro_bodies: HashMap::new(),
+            macro_bodies: Vec::new(),
             pp_cache: std::sync::RwLock::new(HashMap::new()),
         };
         for (fi, file) in program.files.iter().enumerate() {
@@ -211,26 +212,29 @@ impl Program {
         }
         program.compute_definedness();
         program.resolve_includes();
-        program.macro_bodies = program
-            .macros
-            .values()
-            .flatten()
-            .map(|&r| (r, std::sync::OnceLock::new()))
-            .collect();
-        let mut active = HashMap::new();
-        for refs in program.macros.values() {
-            for &(fi, i) in refs {
-                let cond = &program.files[fi].macros[i].condition;
-                active.insert((fi, i), program.condition_holds(cond));
-            }
+        // Per macro, by position: no keys to store and no hashing on the hot path (a
+        // vendor's device headers define hundreds of thousands of macros).
+        fn cells<T>(files: &[FileIr]) -> Vec<Vec<std::sync::OnceLock<T>>> {
+            files
+                .iter()
+                .map(|f| {
+                    (0..f.macros.len())
+                        .map(|_| std::sync::OnceLock::new())
+                        .collect()
+                })
+                .collect()
         }
-        program.macro_active = active;
-        program.macro_exprs = program
-            .macros
-            .values()
-            .flatten()
-            .filter(|&&(fi, i)| program.files[fi].macros[i].params.is_none())
-            .map(|&r| (r, std::sync::OnceLock::new()))
+        program.macro_bodies = cells(&program.files);
+        program.macro_exprs = cells(&program.files);
+        program.macro_active = program
+            .files
+            .iter()
+            .map(|f| {
+                f.macros
+                    .iter()
+                    .map(|m| program.condition_holds(&m.condition))
+                    .collect()
+            })
             .collect();
         program.collect_writes_and_calls();
         program
@@ -397,7 +401,10 @@ impl Program {
         file: Option<usize>,
     ) -> Option<(&MacroDef, Option<&Expr>)> {
         let (r, m) = self.macro_for(name, file)?;
-        let cell = self.macro_exprs.get(&r)?;
+        if m.params.is_some() {
+            return None;
+        }
+        let cell = self.macro_exprs.get(r.0)?.get(r.1)?;
         let expr = cell
             .get_or_init(|| crate::parse::parse_expression(&m.body, m.span))
             .as_ref();
@@ -1061,7 +1068,13 @@ impl Program {
     /// told apart by which one the file includes), else any active one.
     pub fn macro_for(&self, name: &str, file: Option<usize>) -> Option<(MacroRef, &MacroDef)> {
         let refs = self.macros.get(name)?;
-        let active = |r: &&MacroRef| self.macro_active.get(*r).copied().unwrap_or(false);
+        let active = |r: &&MacroRef| {
+            self.macro_active
+                .get(r.0)
+                .and_then(|f| f.get(r.1))
+                .copied()
+                .unwrap_or(false)
+        };
         if let Some(f) = file {
             let closure = self.include_closure(f);
             if refs.len() > 1 {
@@ -1094,7 +1107,7 @@ impl Program {
     /// A macro's body parsed once: as one expression when it is one, else as statements.
     pub fn macro_body(&self, r: MacroRef) -> &MacroBody {
         static NEITHER: MacroBody = MacroBody::Neither;
-        let Some(cell) = self.macro_bodies.get(&r) else {
+        let Some(cell) = self.macro_bodies.get(r.0).and_then(|f| f.get(r.1)) else {
             return &NEITHER;
         };
         cell.get_or_init(|| {
