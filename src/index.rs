@@ -834,7 +834,7 @@ impl Program {
 
     fn condition_tri_by(&self, cond: &Condition, defined: &mut dyn FnMut(&str) -> Tri) -> Tri {
         let mut all = Tri::True;
-        for level in &cond.levels {
+        for level in cond.levels.iter() {
             for b in &level.earlier {
                 all = all.and(self.branch_tri_by(b, defined).negate());
             }
@@ -1364,10 +1364,10 @@ fn visit_stmts_built<'a>(program: &Program, stmts: &'a [Stmt], visit: &mut dyn F
                 let mut earlier: Vec<CondBranch> = Vec::new();
                 for (branch, body) in branches {
                     let cond = Condition {
-                        levels: vec![CondLevel {
+                        levels: std::sync::Arc::new(vec![CondLevel {
                             branch: branch.clone(),
                             earlier: earlier.clone(),
-                        }],
+                        }]),
                     };
                     if program.condition_holds(&cond) {
                         visit_stmts_built(program, body, visit);

@@ -681,7 +681,9 @@ pub enum CondBranch {
 /// which must all be false for it to be taken.
 #[derive(Debug, Clone, PartialEq, Default, serde::Serialize, serde::Deserialize)]
 pub struct Condition {
-    pub levels: Vec<CondLevel>,
+    /// Shared: every definition in one preprocessor group holds the same levels (a vendor
+    /// header puts thousands of macros under one `#if`), so a clone costs a count.
+    pub levels: std::sync::Arc<Vec<CondLevel>>,
 }
 
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
@@ -710,7 +712,7 @@ impl fmt::Display for CondBranch {
 impl fmt::Display for Condition {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let mut parts = Vec::new();
-        for level in &self.levels {
+        for level in self.levels.iter() {
             let mut terms: Vec<String> = level.earlier.iter().map(|b| format!("!({b})")).collect();
             if level.branch != CondBranch::Else {
                 terms.push(level.branch.to_string());

@@ -331,13 +331,15 @@ fn function_regions(source: &[u8]) -> Vec<(std::ops::Range<usize>, Condition)> {
                         && !header.contains(&b'=');
                     if looks_like_function {
                         let condition = Condition {
-                            levels: conds
-                                .iter()
-                                .map(|(b, earlier)| CondLevel {
-                                    branch: b.clone(),
-                                    earlier: earlier.clone(),
-                                })
-                                .collect(),
+                            levels: std::sync::Arc::new(
+                                conds
+                                    .iter()
+                                    .map(|(b, earlier)| CondLevel {
+                                        branch: b.clone(),
+                                        earlier: earlier.clone(),
+                                    })
+                                    .collect(),
+                            ),
                         };
                         out.push((item_start..i, condition));
                     }
@@ -1475,7 +1477,7 @@ impl Lower<'_> {
                 items.push(child);
             }
             let mut condition = outer.clone();
-            condition.levels.push(CondLevel {
+            std::sync::Arc::make_mut(&mut condition.levels).push(CondLevel {
                 branch: branch.clone(),
                 earlier: earlier.clone(),
             });

@@ -801,10 +801,10 @@ impl<'a> Walker<'a> {
         let mut taken = false;
         for (branch, body) in branches {
             let cond = Condition {
-                levels: vec![CondLevel {
+                levels: std::sync::Arc::new(vec![CondLevel {
                     branch: branch.clone(),
                     earlier: earlier.clone(),
-                }],
+                }]),
             };
             match self.program.condition_tri(&cond) {
                 crate::index::Tri::False => {}
