@@ -45,21 +45,11 @@ fn executed_alpha(flags: &[&str]) -> f64 {
         ),
     )
     .unwrap();
-    let exe = dir.path().join("drive");
-    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
-    let status = Command::new(cc)
-        .args(["-std=c11", "-Wall", "-Werror"])
-        .args(flags)
-        .arg("-I")
-        .arg(root.join("inc"))
-        .arg(&driver)
-        .arg("-o")
-        .arg(&exe)
-        .status()
-        .expect("a C compiler (cc) is needed for the execution checks");
-    assert!(status.success());
-    let out = common::output(&mut Command::new(&exe));
-    let y1: f64 = String::from_utf8_lossy(&out.stdout).trim().parse().unwrap();
+    let include = format!("-I{}", root.join("inc").display());
+    let mut all_flags = vec!["-Wall", "-Werror", include.as_str()];
+    all_flags.extend(flags.iter().copied());
+    let text = common::compile_and_run(&[&driver], &all_flags, &dir.path().join("drive"));
+    let y1: f64 = text.trim().parse().unwrap();
     y1 / 32000.0
 }
 

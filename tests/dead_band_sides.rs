@@ -14,7 +14,6 @@
 
 use serde_json::Value;
 use std::path::PathBuf;
-use std::process::Command;
 use std::time::Duration;
 
 mod common;
@@ -122,19 +121,12 @@ int main(void) {{
     );
     let c = dir.path().join("drive.c");
     std::fs::write(&c, driver).unwrap();
-    let exe = dir.path().join("drive");
-    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
-    let status = Command::new(cc)
-        .args(["-std=c11", "-O1", "-Wall", "-Wno-unused-function"])
-        .arg(&c)
-        .arg("-o")
-        .arg(&exe)
-        .status()
-        .expect("a C compiler (cc) is needed for the execution checks");
-    assert!(status.success());
-    let out = common::output(&mut Command::new(&exe));
-    String::from_utf8_lossy(&out.stdout)
-        .lines()
+    let text = common::compile_and_run(
+        &[&c],
+        &["-O1", "-Wall", "-Wno-unused-function"],
+        &dir.path().join("drive"),
+    );
+    text.lines()
         .map(|l| {
             let mut p = l.split_whitespace().map(|x| x.parse::<i64>().unwrap());
             (p.next().unwrap(), p.next().unwrap())

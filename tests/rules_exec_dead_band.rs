@@ -92,18 +92,11 @@ int main(void) {{
     );
     let c = dir.path().join("drive.c");
     std::fs::write(&c, driver).unwrap();
-    let exe = dir.path().join("drive");
-    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
-    let status = Command::new(cc)
-        .args(["-std=c11", "-O1", "-Wall", "-Wno-unused-function"])
-        .arg(&c)
-        .arg("-o")
-        .arg(&exe)
-        .status()
-        .expect("a C compiler (cc) is needed for the execution checks");
-    assert!(status.success(), "{}", case.dir);
-    let out = common::output(&mut Command::new(&exe));
-    let text = String::from_utf8_lossy(&out.stdout);
+    let text = common::compile_and_run(
+        &[&c],
+        &["-O1", "-Wall", "-Wno-unused-function"],
+        &dir.path().join("drive"),
+    );
     let mut parts = text.split_whitespace().map(|x| x.parse::<i64>().unwrap());
     (parts.next().unwrap(), parts.next().unwrap())
 }

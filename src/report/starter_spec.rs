@@ -56,31 +56,29 @@ fn entries(scan: &Scan) -> Vec<(String, Vec<String>)> {
         return Vec::new();
     }
     let graph = crate::callgraph::build(program);
+    let is_entry = |f: &crate::index::FuncRef| {
+        graph.callers.get(f).is_none_or(|c| c.is_empty()) || graph.escaped.contains(f)
+    };
+    // Up from each smoother's function through its callers (a handful of functions hold
+    // smoothers; a tree has thousands of uncalled functions, so walking down from each of
+    // those would cost far more): every entry met reaches that function.
     let mut found: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
-    for f in program.functions() {
-        let called = graph.callers.get(&f).is_some_and(|c| !c.is_empty());
-        if called && !graph.escaped.contains(&f) {
-            continue;
-        }
-        // Breadth first over what it calls, each function once.
-        let mut seen = BTreeSet::from([f]);
-        let mut queue = VecDeque::from([f]);
-        let mut reached = BTreeSet::new();
+    for &holder in &holders {
+        let name = &program.function(holder).name;
+        let mut seen = BTreeSet::from([holder]);
+        let mut queue = VecDeque::from([holder]);
         while let Some(g) = queue.pop_front() {
-            if holders.contains(&g) {
-                reached.insert(program.function(g).name.clone());
+            if is_entry(&g) {
+                found
+                    .entry(program.function(g).name.clone())
+                    .or_default()
+                    .insert(name.clone());
             }
-            for edge in graph.callees.get(&g).map(Vec::as_slice).unwrap_or(&[]) {
-                if seen.insert(edge.callee) {
-                    queue.push_back(edge.callee);
+            for (caller, _) in graph.callers.get(&g).map(Vec::as_slice).unwrap_or(&[]) {
+                if seen.insert(*caller) {
+                    queue.push_back(*caller);
                 }
             }
-        }
-        if !reached.is_empty() {
-            found
-                .entry(program.function(f).name.clone())
-                .or_default()
-                .extend(reached);
         }
     }
     found

@@ -121,6 +121,34 @@ pub fn output(command: &mut Command) -> std::process::Output {
     }
 }
 
+/// Compiles `sources` with the system C compiler (`$CC`, else `cc`), C11 and `flags`, into
+/// `exe`, runs it with the time limit and returns its standard output. Panics with the
+/// compiler's messages when it does not compile.
+#[allow(
+    dead_code,
+    reason = "each test crate uses its own part of the shared helpers"
+)]
+pub fn compile_and_run(sources: &[&Path], flags: &[&str], exe: &Path) -> String {
+    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
+    let built = Command::new(&cc)
+        .arg("-std=c11")
+        .args(flags)
+        .args(sources)
+        .arg("-o")
+        .arg(exe)
+        .output()
+        .unwrap_or_else(|e| {
+            panic!("a C compiler (`{cc}`) is needed for the execution checks: {e}")
+        });
+    assert!(
+        built.status.success(),
+        "{sources:?} do not compile:\n{}",
+        String::from_utf8_lossy(&built.stderr)
+    );
+    let out = output(&mut Command::new(exe));
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
 /// Text safe to print in a failure message: control characters other than newlines are
 /// shown escaped, so that a failing test cannot drive the terminal either.
 pub fn shown(text: &str) -> String {
