@@ -12,6 +12,8 @@ use crate::eval::num::Target;
 use crate::ir::*;
 use std::collections::{BTreeMap, HashMap, HashSet};
 
+mod ppexpr;
+
 /// A function by position: file index and function index within that file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub struct FuncRef {
@@ -210,8 +212,13 @@ impl Program {
                     .push(FuncRef { file: fi, index: i });
             }
         }
+        let started = std::time::Instant::now();
         program.compute_definedness();
+        crate::scan::phase("  definedness", started);
+        let started = std::time::Instant::now();
         program.resolve_includes();
+        crate::scan::phase("  includes", started);
+        let started = std::time::Instant::now();
         // Per macro, by position: no keys to store and no hashing on the hot path (a
         // vendor's device headers define hundreds of thousands of macros).
         fn cells<T>(files: &[FileIr]) -> Vec<Vec<std::sync::OnceLock<T>>> {
@@ -236,7 +243,10 @@ impl Program {
                     .collect()
             })
             .collect();
+        crate::scan::phase("  macro-active", started);
+        let started = std::time::Instant::now();
         program.collect_writes_and_calls();
+        crate::scan::phase("  writes+calls", started);
         program
     }
 
@@ -767,7 +777,7 @@ impl Program {
                 });
                 let mut seen = HashSet::new();
                 let expanded = self.expand_pp_identifiers(&replaced, &mut seen, 0);
-                crate::parse::parse_expression(&expanded, Span::default())
+                pp_parse(&expanded)
                     .and_then(|e| pp_eval(&e))
                     .is_some_and(|v| v != 0)
             }
@@ -902,7 +912,7 @@ impl Program {
                 _ => Some("__tauscan_unknown".into()),
             }
         });
-        let Some(expr) = crate::parse::parse_expression(&expanded, Span::default()) else {
+        let Some(expr) = pp_parse(&expanded) else {
             return Tri::Unknown;
         };
         match pp_eval_tri(&expr) {
@@ -1162,7 +1172,7 @@ impl Program {
         let replaced = replace_defined(text, |name| self.is_defined(name));
         let mut seen = HashSet::new();
         let expanded = self.expand_pp_identifiers(&replaced, &mut seen, 0);
-        let Some(expr) = crate::parse::parse_expression(&expanded, Span::default()) else {
+        let Some(expr) = pp_parse(&expanded) else {
             return false;
         };
         pp_eval(&expr).map(|v| v != 0).unwrap_or(false)
@@ -1656,6 +1666,12 @@ fn pp_eval_tri(expr: &Expr) -> Option<i128> {
             }
         }
     }
+}
+
+/// Parses an `#if` expression after its names are replaced: by the small parser when the
+/// text is in its language, else by the full C parse.
+fn pp_parse(text: &str) -> Option<Expr> {
+    ppexpr::parse(text).or_else(|| crate::parse::parse_expression(text, Span::default()))
 }
 
 /// Integer evaluation for `#if` (C11 6.10.1: all arithmetic in intmax_t).

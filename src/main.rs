@@ -694,7 +694,9 @@ fn check(
         eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
         return Ok(Status::ToolError);
     }
+    let started = std::time::Instant::now();
     let mut checked = tauscan::check::run(&mut result, &spec);
+    tauscan::scan::phase("check", started);
     if let Some(entries) = &known {
         let gone = report::baseline::apply(&mut checked, &spec, entries);
         for e in &gone {

@@ -2446,7 +2446,7 @@ fn parse_int_literal(text: &str) -> Option<(u128, bool, bool)> {
     Some((value, unsigned, long))
 }
 
-fn parse_number(text: &str) -> Option<ExprKind> {
+pub(crate) fn parse_number(text: &str) -> Option<ExprKind> {
     let lower = text.to_ascii_lowercase().replace('\'', "");
     let is_hex = lower.starts_with("0x");
     let is_float = if is_hex {

@@ -196,6 +196,15 @@ fn read_and(options: &ScanOptions, each: impl Fn(usize, &[u8]) + Sync) -> ParseO
     }
 }
 
+/// Prints how long a stage of the scan took on standard error when the environment sets
+/// `TAUSCAN_PHASES` (for developers measuring the scan; `bench/README.md`).
+pub fn phase(name: &str, since: std::time::Instant) {
+    static ON: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
+    if *ON.get_or_init(|| std::env::var_os("TAUSCAN_PHASES").is_some()) {
+        eprintln!("phase {name:<12} {:8.3} s", since.elapsed().as_secs_f64());
+    }
+}
+
 /// Stack for each worker: lowering and recognition recurse over the syntax, which a
 /// generated state machine can nest deeply, and debug builds use large frames.
 pub const WORKER_STACK: usize = 64 << 20;
@@ -223,7 +232,10 @@ fn run_here(options: &ScanOptions) -> Scan {
         excluded(&options.exclude, rel)
             || (!include.is_empty() && !include.iter().any(|m| m.is_match(rel)))
     };
+    let started = std::time::Instant::now();
     let walked: WalkResult = walk::walk(&options.paths, options.root.as_deref(), &skip);
+    phase("walk", started);
+    let started = std::time::Instant::now();
     let notes: Vec<ScanNote> = walked
         .problems
         .iter()
@@ -268,6 +280,7 @@ fn run_here(options: &ScanOptions) -> Scan {
             }
         })
         .collect();
+    phase("read+lower", started);
     let paths: Vec<String> = walked.files.iter().map(|f| f.relative.clone()).collect();
     analyse(walked.root, parsed, paths, notes, incomplete, options)
 }
@@ -315,9 +328,13 @@ fn analyse(
         }
         files.push(ir);
     }
+    let started = std::time::Instant::now();
     let program = Program::build(files, paths, options.program.clone());
+    phase("index", started);
+    let started = std::time::Instant::now();
     let recognition =
         recognise::recognise_counting(&program, &options.recognise, options.progress.as_deref());
+    phase("recognise", started);
     for note in &recognition.notes {
         notes.push(ScanNote {
             file: program.path(note.span.file).to_string(),
@@ -326,7 +343,9 @@ fn analyse(
             incomplete: false,
         });
     }
+    let started = std::time::Instant::now();
     let figures = figures::for_all(&recognition.smoothers);
+    phase("figures", started);
     Scan {
         root,
         program,

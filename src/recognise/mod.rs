@@ -247,6 +247,7 @@ pub fn recognise_counting(
 ) -> Recognition {
     use rayon::prelude::*;
     let helpers = walk::Helpers::default();
+    let started = std::time::Instant::now();
     // Pass 1, one file per worker (so each file's budget is spent in a fixed order): every
     // function's own updates, and the updates filter functions hand to their callers.
     let parts: Vec<FilePart> = (0..program.files.len())
@@ -271,6 +272,8 @@ pub fn recognise_counting(
             summaries.updates.insert(f, std::sync::Arc::new(s));
         }
     }
+    crate::scan::phase("  pass 1", started);
+    let started = std::time::Instant::now();
     // Pass 2: the callers of filter functions, with the updates put in at each call.
     let callers = instances::callers(program, &summaries);
     let second: Vec<(Vec<Smoother>, Vec<Note>, Vec<crate::index::MacroRef>)> = callers
@@ -282,6 +285,8 @@ pub fn recognise_counting(
         result.notes.extend(n);
         used.extend(u);
     }
+    crate::scan::phase("  pass 2", started);
+    let started = std::time::Instant::now();
     // Macro definitions that hold a smoother and that nothing expanded.
     let unexpanded: Vec<_> = program
         .all_macros()
@@ -299,7 +304,10 @@ pub fn recognise_counting(
     for d in defs {
         result.smoothers.extend(d);
     }
+    crate::scan::phase("  macro defs", started);
+    let started = std::time::Instant::now();
     finish(program, &mut result);
+    crate::scan::phase("  finish", started);
     result
 }
 
