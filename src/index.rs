@@ -122,6 +122,8 @@ pub struct Program {
     writes_by_file_target: HashMap<(usize, String), Vec<usize>>,
     calls: Vec<CallSite>,
     calls_by_callee: HashMap<String, Vec<usize>>,
+    /// Calls by the function they are made in, in file order.
+    calls_by_caller: HashMap<FuncRef, Vec<usize>>,
     /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
     calls_by_address_arg: HashMap<String, Vec<usize>>,
     /// Calls by the array of an `&arr[k]` argument, for init calls of array elements.
@@ -160,6 +162,7 @@ impl Program {
             writes_by_file_target: HashMap::new(),
             calls: Vec::new(),
             calls_by_callee: HashMap::new(),
+            calls_by_caller: HashMap::new(),
             calls_by_address_arg: HashMap::new(),
             calls_by_element_arg: HashMap::new(),
             defined: HashMap::new(),
@@ -282,6 +285,7 @@ impl Program {
                 .entry(c.callee.clone())
                 .or_default()
                 .push(i);
+            self.calls_by_caller.entry(c.caller).or_default().push(i);
             for a in &c.args {
                 if matches!(
                     a.kind,
@@ -621,8 +625,13 @@ impl Program {
         self.writes.iter()
     }
 
-    pub fn calls(&self) -> &[CallSite] {
-        &self.calls
+    /// The calls made in function `caller`, in the order they are written.
+    pub fn calls_from(&self, caller: FuncRef) -> impl Iterator<Item = &CallSite> {
+        self.calls_by_caller
+            .get(&caller)
+            .into_iter()
+            .flatten()
+            .map(|&i| &self.calls[i])
     }
 
     /// Calls that pass `address` (the text of an `&x` expression) as an argument.

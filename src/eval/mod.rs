@@ -833,13 +833,8 @@ impl<'p> Evaluator<'p> {
         };
         let latest = self
             .program
-            .calls()
-            .iter()
-            .filter(|c| {
-                c.caller == w.function
-                    && c.span.start < w.span.start
-                    && c.args.iter().any(hands_object)
-            })
+            .calls_from(w.function)
+            .filter(|c| c.span.start < w.span.start && c.args.iter().any(hands_object))
             .max_by_key(|c| c.span.start);
         latest.is_some_and(|c| {
             self.program
