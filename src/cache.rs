@@ -1,6 +1,9 @@
-//! The opt-in parse cache (`--cache DIR`): each file's lowered IR, stored under the
-//! SHA-256 of the file's bytes and of the running build's identity, so that a second
-//! scan of an unchanged file skips tree-sitter and the lowering.
+//! The opt-in cache (`--cache DIR`): each file's lowered IR, stored under the SHA-256 of
+//! the file's bytes and of the running build's identity, so that a second scan of an
+//! unchanged file skips tree-sitter and the lowering; and the whole program's index and
+//! recognition, stored under the hash of every file's entry, its path and the options, so
+//! that a second scan of an unchanged tree skips them too (one changed file changes that
+//! key, and the files' entries still spare their parse).
 //!
 //! Safe to delete at any time, and never trusted beyond its key: an entry that is missing,
 //! unreadable, truncated or from another build is parsed again and rewritten. Entries are
@@ -8,13 +11,17 @@
 //! see whole entries or none. The cache changes how fast a scan is, never what it finds;
 //! `tests/cache.rs` holds it to that.
 
+use crate::index::{Program, ProgramOptions};
 use crate::ir::{FileId, FileIr};
+use crate::recognise::{RecogniseOptions, Recognition};
 use sha2::{Digest, Sha256};
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
 /// Bumped when the entry layout changes in a way the build's identity would not show.
 const LAYOUT: &[u8] = b"tauscan-ir-cache-2";
+/// The same for the whole-program entries.
+const PROGRAM_LAYOUT: &[u8] = b"tauscan-program-cache-1";
 
 /// A cache folder, ready to use.
 #[derive(Debug, Clone)]
@@ -69,14 +76,89 @@ impl Cache {
         hasher.update(build_id());
         hasher.update((bytes.len() as u64).to_le_bytes());
         hasher.update(bytes);
-        let digest = hasher.finalize();
-        let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
-        Entry(self.dir.join(&hex[..2]).join(format!("{}.ir", &hex[2..])))
+        let digest: [u8; 32] = hasher.finalize().into();
+        let hex = hex(&digest);
+        Entry {
+            path: self.dir.join(&hex[..2]).join(format!("{}.ir", &hex[2..])),
+            digest,
+        }
+    }
+
+    /// The entry for a whole program: these files (each by its path and its entry's
+    /// digest, in scan order) analysed with these options.
+    pub fn program_entry(
+        &self,
+        files: &[(&str, &Entry)],
+        program: &ProgramOptions,
+        recognise: &RecogniseOptions,
+    ) -> Entry {
+        let mut hasher = Sha256::new();
+        hasher.update(PROGRAM_LAYOUT);
+        hasher.update(build_id());
+        // Both option sets print in a fixed order (ordered maps, no hash maps).
+        for text in [format!("{program:?}"), format!("{recognise:?}")] {
+            hasher.update((text.len() as u64).to_le_bytes());
+            hasher.update(text.as_bytes());
+        }
+        hasher.update((files.len() as u64).to_le_bytes());
+        for (path, entry) in files {
+            hasher.update((path.len() as u64).to_le_bytes());
+            hasher.update(path.as_bytes());
+            hasher.update(entry.digest);
+        }
+        let digest: [u8; 32] = hasher.finalize().into();
+        let hex = hex(&digest);
+        Entry {
+            path: self.dir.join("program").join(format!("{hex}.bin")),
+            digest,
+        }
+    }
+
+    /// The program and recognition stored in `entry`, given the files, paths and options
+    /// they were made from (which the entry's key holds), when it is there, reads and fits
+    /// the files; else the files come back for a fresh build.
+    pub fn load_program(
+        &self,
+        entry: &Entry,
+        files: Vec<FileIr>,
+        paths: Vec<String>,
+        options: ProgramOptions,
+    ) -> Result<(Program, Recognition), Unbuilt> {
+        let stored = std::fs::read(&entry.path).ok();
+        let read: Option<(Program, Recognition)> =
+            stored.and_then(|bytes| postcard::from_bytes(&bytes).ok());
+        match read {
+            Some((program, recognition)) if program.fits(&files) => {
+                Ok((program.attach(files, paths, options), recognition))
+            }
+            _ => Err((files, paths, options)),
+        }
+    }
+
+    /// Stores a program's tables and recognition in `entry` (failures only mean a slower
+    /// next scan).
+    pub fn store_program(&self, entry: &Entry, program: &Program, recognition: &Recognition) {
+        let Ok(encoded) = postcard::to_stdvec(&(program, recognition)) else {
+            return;
+        };
+        self.write(&entry.path, &encoded);
+        if let Some(folder) = entry.path.parent() {
+            prune(folder, PROGRAMS_KEPT);
+        }
+    }
+
+    fn write(&self, path: &Path, bytes: &[u8]) {
+        if let Some(folder) = path.parent() {
+            if std::fs::create_dir_all(folder).is_err() {
+                return;
+            }
+        }
+        let _ = crate::report::write_atomically(path, bytes);
     }
 
     /// The IR stored in `entry`, as file `file` of this scan, when it is there and reads.
     pub fn load(&self, entry: &Entry, file: FileId) -> Option<FileIr> {
-        let stored = std::fs::read(&entry.0).ok()?;
+        let stored = std::fs::read(&entry.path).ok()?;
         let mut ir: FileIr =
             crate::ir::with_file_id(file, || postcard::from_bytes(&stored)).ok()?;
         ir.file = file;
@@ -89,18 +171,46 @@ impl Cache {
         let Ok(encoded) = postcard::to_stdvec(ir) else {
             return;
         };
-        if let Some(folder) = entry.0.parent() {
-            if std::fs::create_dir_all(folder).is_err() {
-                return;
-            }
-        }
-        let _ = crate::report::write_atomically(&entry.0, &encoded);
+        self.write(&entry.path, &encoded);
     }
 }
 
-/// Where the IR of one file's bytes is kept in a cache folder.
+/// What a program is built from, handed back when no entry serves it.
+pub type Unbuilt = (Vec<FileIr>, Vec<String>, ProgramOptions);
+
+/// Whole-program entries kept: each is the size of the tree's index (megabytes on a large
+/// tree), and a CI cache folder sees a new tree with every change.
+const PROGRAMS_KEPT: usize = 4;
+
+/// Deletes all but the `keep` newest `.bin` entries of `folder` (a scan reading one that
+/// goes only builds its program again).
+fn prune(folder: &Path, keep: usize) {
+    let Ok(listing) = std::fs::read_dir(folder) else {
+        return;
+    };
+    let mut found: Vec<(std::time::SystemTime, PathBuf)> = listing
+        .filter_map(|e| e.ok())
+        .map(|e| e.path())
+        .filter(|p| p.extension().is_some_and(|x| x == "bin"))
+        .filter_map(|p| Some((std::fs::metadata(&p).ok()?.modified().ok()?, p)))
+        .collect();
+    found.sort_by(|a, b| b.0.cmp(&a.0).then_with(|| a.1.cmp(&b.1)));
+    for (_, path) in found.into_iter().skip(keep) {
+        let _ = std::fs::remove_file(path);
+    }
+}
+
+fn hex(digest: &[u8]) -> String {
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Where the IR of one file's bytes (or a whole program's index) is kept in a cache
+/// folder, and the digest that names it.
 #[derive(Debug, Clone)]
-pub struct Entry(PathBuf);
+pub struct Entry {
+    path: PathBuf,
+    digest: [u8; 32],
+}
 
 /// The identity of the running build: tauscan's version and the running executable's
 /// path, size and modification time, so that an entry written by another build (another
@@ -169,8 +279,8 @@ mod tests {
         let source = b"static float y;\nvoid f(float u) { y += 0.1f * (u - y); }\n";
         let entry = cache.entry(source);
         cache.store(&entry, &crate::parse::parse_file(FileId(0), source));
-        let stored = std::fs::read(&entry.0).unwrap_or_else(|e| panic!("{e}"));
-        std::fs::write(&entry.0, &stored[..stored.len() / 2]).unwrap_or_else(|e| panic!("{e}"));
+        let stored = std::fs::read(&entry.path).unwrap_or_else(|e| panic!("{e}"));
+        std::fs::write(&entry.path, &stored[..stored.len() / 2]).unwrap_or_else(|e| panic!("{e}"));
         assert!(cache.load(&entry, FileId(0)).is_none());
     }
 }

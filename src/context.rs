@@ -11,7 +11,7 @@ use crate::eval::ChainStep;
 use crate::ir::Span;
 use crate::recognise::Coefficient;
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum RateKind {
     /// A constant of the program (in the coefficient's derivation).
     Constant,
@@ -38,7 +38,7 @@ impl RateKind {
 
 /// One step of the way a rate reaches an update: the entry function (at its definition),
 /// then each call (at the call) down to the function that holds the update.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct RateStep {
     pub function: String,
     pub file: crate::ir::FileId,
@@ -64,7 +64,7 @@ pub fn path_text(program: &crate::index::Program, path: &[RateStep]) -> String {
     text
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct RateInfo {
     pub hz: Option<f64>,
     pub kind: RateKind,

@@ -15,14 +15,16 @@ use std::collections::{BTreeMap, HashMap, HashSet};
 mod ppexpr;
 
 /// A function by position: file index and function index within that file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize, serde::Deserialize,
+)]
 pub struct FuncRef {
     pub file: usize,
     pub index: usize,
 }
 
 /// An assignment found in a function body: `target op= value`.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct Write {
     pub function: FuncRef,
     pub target: String,
@@ -34,7 +36,7 @@ pub struct Write {
     pub unconditional: bool,
 }
 
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct CallSite {
     pub caller: FuncRef,
     pub callee: String,
@@ -43,7 +45,7 @@ pub struct CallSite {
 }
 
 /// The analysis options that change what the program means.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, serde::Serialize, serde::Deserialize)]
 pub struct ProgramOptions {
     pub target: Target,
     /// `-D NAME=VALUE` (or `-D NAME`, which means 1).
@@ -54,8 +56,21 @@ pub struct ProgramOptions {
     pub complete_defines: bool,
 }
 
+/// Per macro, by position: no keys to store and no hashing on the hot path (a vendor's
+/// device headers define hundreds of thousands of macros).
+fn macro_cells<T>(files: &[FileIr]) -> Vec<Vec<std::sync::OnceLock<T>>> {
+    files
+        .iter()
+        .map(|f| {
+            (0..f.macros.len())
+                .map(|_| std::sync::OnceLock::new())
+                .collect()
+        })
+        .collect()
+}
+
 /// A three-valued truth: what a preprocessor condition is known to be.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Tri {
     True,
     False,
@@ -97,15 +112,20 @@ pub enum MacroBody {
 /// A macro definition by position: file index and index within the file.
 pub type MacroRef = (usize, usize);
 
+#[derive(serde::Serialize, serde::Deserialize)]
 pub struct Program {
+    #[serde(skip)]
     pub files: Vec<FileIr>,
     /// Path of each file relative to the scan root, with '/' separators.
+    #[serde(skip)]
     pub paths: Vec<String>,
+    #[serde(skip)]
     pub options: ProgramOptions,
     macros: HashMap<String, Vec<(usize, usize)>>,
     /// Whether each macro's `#if` branch is built, by file and index within the file.
     macro_active: Vec<Vec<bool>>,
     /// Object-like macro bodies parsed as expressions, on first use.
+    #[serde(skip)]
     macro_exprs: Vec<Vec<std::sync::OnceLock<Option<Expr>>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
@@ -135,10 +155,13 @@ pub struct Program {
     /// For each file, each `#include`'s possible files of the scan.
     includes: Vec<Vec<Vec<usize>>>,
     /// Each file's include closure (itself and what it includes, transitively), on first use.
+    #[serde(skip)]
     closures: Vec<std::sync::OnceLock<Vec<usize>>>,
     /// Every macro body parsed as statements or an expression, on first use.
+    #[serde(skip)]
     macro_bodies: Vec<Vec<std::sync::OnceLock<MacroBody>>>,
     /// `#if` texts already judged (three-valued).
+    #[serde(skip)]
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
 }
 
@@ -222,20 +245,8 @@ impl Program {
         program.resolve_includes();
         crate::scan::phase("  includes", started);
         let started = std::time::Instant::now();
-        // Per macro, by position: no keys to store and no hashing on the hot path (a
-        // vendor's device headers define hundreds of thousands of macros).
-        fn cells<T>(files: &[FileIr]) -> Vec<Vec<std::sync::OnceLock<T>>> {
-            files
-                .iter()
-                .map(|f| {
-                    (0..f.macros.len())
-                        .map(|_| std::sync::OnceLock::new())
-                        .collect()
-                })
-                .collect()
-        }
-        program.macro_bodies = cells(&program.files);
-        program.macro_exprs = cells(&program.files);
+        program.macro_bodies = macro_cells(&program.files);
+        program.macro_exprs = macro_cells(&program.files);
         program.macro_active = program
             .files
             .iter()
@@ -251,6 +262,37 @@ impl Program {
         program.collect_writes_and_calls();
         crate::scan::phase("  writes+calls", started);
         program
+    }
+
+    /// Whether `self`, read back from a cache without its files, was built from files of
+    /// these shapes (a cheap guard against an entry that does not belong to them).
+    pub fn fits(&self, files: &[FileIr]) -> bool {
+        self.includes.len() == files.len()
+            && self.macro_active.len() == files.len()
+            && self
+                .macro_active
+                .iter()
+                .zip(files)
+                .all(|(active, f)| active.len() == f.macros.len())
+    }
+
+    /// A program read back from a cache (its tables only), given its files, paths and
+    /// options again; the tables filled on first use start empty.
+    pub fn attach(
+        mut self,
+        files: Vec<FileIr>,
+        paths: Vec<String>,
+        options: ProgramOptions,
+    ) -> Program {
+        self.macro_bodies = macro_cells(&files);
+        self.macro_exprs = macro_cells(&files);
+        self.closures = (0..files.len())
+            .map(|_| std::sync::OnceLock::new())
+            .collect();
+        self.files = files;
+        self.paths = paths;
+        self.options = options;
+        self
     }
 
     fn collect_writes_and_calls(&mut self) {

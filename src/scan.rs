@@ -5,7 +5,7 @@
 //! tree and the bytes are dropped as soon as the file is lowered), so memory follows the
 //! IR, not the trees. Problems with single files are collected as notes; the scan goes on.
 
-use crate::cache::Cache;
+use crate::cache::{Cache, Entry};
 use crate::figures::{self, SmootherFigures};
 use crate::index::{Program, ProgramOptions};
 use crate::ir::{FileId, FileIr};
@@ -53,19 +53,23 @@ impl Progress {
     }
 }
 
-/// A file's IR: from the cache when it has this file's bytes, else parsed (and stored).
-fn lower(id: FileId, bytes: &[u8], cache: Option<&Cache>) -> FileIr {
+/// A file's IR: from the cache when it has this file's bytes, else parsed (and stored);
+/// with a cache, the file's entry too.
+fn lower(id: FileId, bytes: &[u8], cache: Option<&Cache>) -> (FileIr, Option<Entry>) {
     let Some(cache) = cache else {
-        return crate::parse::parse_file(id, bytes);
+        return (crate::parse::parse_file(id, bytes), None);
     };
     let entry = cache.entry(bytes);
     if let Some(ir) = cache.load(&entry, id) {
-        return ir;
+        return (ir, Some(entry));
     }
     let ir = crate::parse::parse_file(id, bytes);
     cache.store(&entry, &ir);
-    ir
+    (ir, Some(entry))
 }
+
+/// One file as read: its IR, why it could not be read (if so), and its cache entry.
+type Read = (FileIr, Option<String>, Option<Entry>);
 
 /// A note about one file or the scan as a whole, for stderr and the JSON `notes`.
 #[derive(Debug, Clone, PartialEq)]
@@ -251,7 +255,7 @@ fn run_here(options: &ScanOptions) -> Scan {
         Progress::add(&p.files_total, walked.files.len());
     }
 
-    let parsed: Vec<(FileIr, Option<String>)> = walked
+    let parsed: Vec<Read> = walked
         .files
         .par_iter()
         .enumerate()
@@ -268,14 +272,19 @@ fn run_here(options: &ScanOptions) -> Scan {
                         ..FileIr::default()
                     },
                     Some("holds NUL bytes: not C source text; not read".to_string()),
+                    None,
                 ),
-                Ok(bytes) => (lower(id, &bytes, options.cache.as_ref()), None),
+                Ok(bytes) => {
+                    let (ir, entry) = lower(id, &bytes, options.cache.as_ref());
+                    (ir, None, entry)
+                }
                 Err(e) => (
                     FileIr {
                         file: id,
                         ..FileIr::default()
                     },
                     Some(format!("cannot be read: {e}")),
+                    None,
                 ),
             }
         })
@@ -291,7 +300,13 @@ pub fn run_sources(sources: &[(String, Vec<u8>)], options: &ScanOptions) -> Scan
     let parsed = sources
         .par_iter()
         .enumerate()
-        .map(|(i, (_, bytes))| (crate::parse::parse_file(FileId(i as u32), bytes), None))
+        .map(|(i, (_, bytes))| {
+            (
+                crate::parse::parse_file(FileId(i as u32), bytes),
+                None,
+                None,
+            )
+        })
         .collect();
     let paths = sources.iter().map(|(name, _)| name.clone()).collect();
     analyse(PathBuf::new(), parsed, paths, Vec::new(), false, options)
@@ -300,14 +315,16 @@ pub fn run_sources(sources: &[(String, Vec<u8>)], options: &ScanOptions) -> Scan
 /// Everything after reading: notes from the lowering, the index, recognition, figures.
 fn analyse(
     root: PathBuf,
-    parsed: Vec<(FileIr, Option<String>)>,
+    parsed: Vec<Read>,
     paths: Vec<String>,
     mut notes: Vec<ScanNote>,
     mut incomplete: bool,
     options: &ScanOptions,
 ) -> Scan {
     let mut files = Vec::with_capacity(parsed.len());
-    for (ir, read_error) in parsed {
+    let mut entries = Vec::with_capacity(parsed.len());
+    for (ir, read_error, entry) in parsed {
+        entries.push(entry);
         let path = paths[ir.file.0 as usize].clone();
         if let Some(message) = read_error {
             incomplete = true;
@@ -328,13 +345,7 @@ fn analyse(
         }
         files.push(ir);
     }
-    let started = std::time::Instant::now();
-    let program = Program::build(files, paths, options.program.clone());
-    phase("index", started);
-    let started = std::time::Instant::now();
-    let recognition =
-        recognise::recognise_counting(&program, &options.recognise, options.progress.as_deref());
-    phase("recognise", started);
+    let (program, recognition) = index_and_recognise(files, paths, entries, options);
     for note in &recognition.notes {
         notes.push(ScanNote {
             file: program.path(note.span.file).to_string(),
@@ -354,6 +365,56 @@ fn analyse(
         notes,
         incomplete,
     }
+}
+
+/// The program's index and its smoothers: from the cache when it holds this very tree
+/// (every file's entry, path and the options), else built (and stored).
+fn index_and_recognise(
+    files: Vec<FileIr>,
+    paths: Vec<String>,
+    entries: Vec<Option<Entry>>,
+    options: &ScanOptions,
+) -> (Program, Recognition) {
+    // Only a tree whose every file has an entry is one the cache can name.
+    let cached = options.cache.as_ref().and_then(|cache| {
+        let named: Option<Vec<(&str, &Entry)>> = paths
+            .iter()
+            .zip(&entries)
+            .map(|(p, e)| e.as_ref().map(|e| (p.as_str(), e)))
+            .collect();
+        let named = named.filter(|n| n.len() == files.len())?;
+        Some((
+            cache,
+            cache.program_entry(&named, &options.program, &options.recognise),
+        ))
+    });
+    let started = std::time::Instant::now();
+    let (files, paths, program_options) = match &cached {
+        Some((cache, entry)) => {
+            match cache.load_program(entry, files, paths, options.program.clone()) {
+                Ok((program, recognition)) => {
+                    phase("cached", started);
+                    if let Some(p) = &options.progress {
+                        Progress::add(&p.files_recognised, program.files.len());
+                        Progress::add(&p.smoothers, recognition.smoothers.len());
+                    }
+                    return (program, recognition);
+                }
+                Err(back) => back,
+            }
+        }
+        None => (files, paths, options.program.clone()),
+    };
+    let program = Program::build(files, paths, program_options);
+    phase("index", started);
+    let started = std::time::Instant::now();
+    let recognition =
+        recognise::recognise_counting(&program, &options.recognise, options.progress.as_deref());
+    phase("recognise", started);
+    if let Some((cache, entry)) = &cached {
+        cache.store_program(entry, &program, &recognition);
+    }
+    (program, recognition)
 }
 
 #[cfg(test)]

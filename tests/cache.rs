@@ -1,7 +1,9 @@
-//! The parse cache (`--cache DIR`) changes how fast a scan is, never what it reports: on
-//! the fixture trees, a scan without the cache, one that fills it and one that reads it
-//! print the same bytes and exit the same way; damaged entries and edited files are
-//! parsed again, never served stale. (How much faster is the benchmark's business.)
+//! The cache (`--cache DIR`: each file's parse, and the whole program's index and
+//! recognition) changes how fast a scan is, never what it reports: on the fixture trees, a
+//! scan without the cache, one that fills it and one that reads it print the same bytes
+//! and exit the same way; damaged entries, edited files, a header that changes another
+//! file's smoother and other options are read afresh, never served stale. (How much faster
+//! is the benchmark's business.)
 #![allow(
     clippy::unwrap_used,
     clippy::expect_used,
@@ -27,7 +29,15 @@ fn output(dir: &Path, args: &[&str], cache: Option<&Path>) -> (Vec<u8>, Option<i
     (run.stdout, run.code)
 }
 
-/// The entry files under the cache folder.
+/// The per-file entries under the cache folder.
+fn file_entries(cache: &Path) -> Vec<PathBuf> {
+    entries(cache)
+        .into_iter()
+        .filter(|p| p.extension().is_some_and(|x| x == "ir"))
+        .collect()
+}
+
+/// The entry files under the cache folder (per file and whole-program).
 fn entries(cache: &Path) -> Vec<PathBuf> {
     let mut out = Vec::new();
     for folder in std::fs::read_dir(cache).unwrap() {
@@ -133,6 +143,73 @@ fn an_edited_file_is_not_served_from_the_cache() {
 }
 
 #[test]
+fn a_header_edit_reaches_the_smoothers_of_unchanged_files() {
+    // kiln.c's bytes (its parse entry) stay the same; what it means changes with kiln.h.
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("tree");
+    write(&tree, "kiln.h", "#define KILN_SHIFT 3\n");
+    write(
+        &tree,
+        "kiln.c",
+        "#include \"kiln.h\"\nstatic int y;\nvoid kiln_tick(int u) { y += (u - y) >> KILN_SHIFT; }\n",
+    );
+    let cache = dir.path().join("cache");
+    let args = ["list", "tree", "--format", "json"];
+    output(dir.path(), &args, Some(&cache));
+    write(&tree, "kiln.h", "#define KILN_SHIFT 5\n");
+    let plain = output(dir.path(), &args, None);
+    let reading = output(dir.path(), &args, Some(&cache));
+    assert_same("edited header", &plain, &reading);
+    let json: serde_json::Value = serde_json::from_slice(&reading.0).unwrap();
+    // 2^-5, from the edited header (C11 6.10.3: the macro is replaced where it is used).
+    assert_eq!(json["smoothers"][0]["alpha"].as_f64(), Some(1.0 / 32.0));
+}
+
+#[test]
+fn other_options_are_another_program() {
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("tree");
+    write(
+        &tree,
+        "vent.c",
+        "#ifdef VENT_FAST\n#define VENT_SHIFT 2\n#else\n#define VENT_SHIFT 4\n#endif\n\
+         static int y;\nvoid vent_tick(int u) { y += (u - y) >> VENT_SHIFT; }\n",
+    );
+    let cache = dir.path().join("cache");
+    let slow = ["list", "tree", "--format", "json", "-D", "VENT_SLOW"];
+    let fast = ["list", "tree", "--format", "json", "-D", "VENT_FAST"];
+    output(dir.path(), &slow, Some(&cache));
+    let plain = output(dir.path(), &fast, None);
+    let reading = output(dir.path(), &fast, Some(&cache));
+    assert_same("another define", &plain, &reading);
+    let json: serde_json::Value = serde_json::from_slice(&reading.0).unwrap();
+    // With VENT_FAST defined the first branch is built (C11 6.10.1): 2^-2.
+    assert_eq!(json["smoothers"][0]["alpha"].as_f64(), Some(0.25));
+}
+
+#[test]
+fn only_the_newest_whole_program_entries_are_kept() {
+    let dir = tempfile::tempdir().unwrap();
+    let tree = dir.path().join("tree");
+    let cache = dir.path().join("cache");
+    let args = ["list", "tree", "--format", "json"];
+    for shift in 1..=7 {
+        write(
+            &tree,
+            "kiln.c",
+            format!("static int y; void kiln_tick(int u) {{ y += (u - y) >> {shift}; }}\n"),
+        );
+        output(dir.path(), &args, Some(&cache));
+    }
+    let programs = std::fs::read_dir(cache.join("program")).unwrap().count();
+    assert_eq!(programs, 4, "whole-program entries kept");
+    // The newest is among them and serves the same result.
+    let plain = output(dir.path(), &args, None);
+    let reading = output(dir.path(), &args, Some(&cache));
+    assert_same("after pruning", &plain, &reading);
+}
+
+#[test]
 fn a_cache_folder_that_cannot_be_made_is_a_clear_error() {
     let dir = tempfile::tempdir().unwrap();
     write(dir.path(), "tree/kiln.c", GOOD_SMOOTHER);
@@ -190,5 +267,5 @@ fn files_with_the_same_bytes_share_one_entry_written_whole() {
         let reading = output(dir.path(), &args, Some(&cache));
         assert_same("one shared entry", &plain, &reading);
     }
-    assert_eq!(entries(&cache).len(), 1, "{:?}", entries(&cache));
+    assert_eq!(file_entries(&cache).len(), 1, "{:?}", entries(&cache));
 }

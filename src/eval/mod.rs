@@ -19,7 +19,7 @@ const MAX_DEPTH: u32 = 48;
 const MAX_STEPS: u32 = 20_000;
 
 /// One definition a value was derived through.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ChainStep {
     pub file: FileId,
     pub line: u32,

@@ -11,7 +11,7 @@ use crate::ir::{BinaryOp, CType, IntType, UnaryOp};
 use std::fmt;
 
 /// What the target's C compiler makes of `int`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct Target {
     pub int_bits: u8,
     pub has_fpu: bool,
@@ -35,7 +35,7 @@ impl Target {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Num {
     Int {
         value: i128,

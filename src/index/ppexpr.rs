@@ -1,6 +1,7 @@
 //! A small parser for the expressions of `#if` once `defined` and macro names are
-//! replaced: integer constants, the marker of an unknown name, parentheses, and the unary,
-//! binary and conditional operators C11 6.10.1 allows there.
+//! replaced: integer constants, the marker of an unknown name, parentheses, the unary,
+//! binary and conditional operators C11 6.10.1 allows there, and calls (what is left of a
+//! function-like macro the index does not expand, `0(0)`, which has no value).
 //!
 //! It exists for speed: a vendor's device headers carry hundreds of thousands of `#if`
 //! lines, and a tree-sitter parse of each costs more than the rest of the index. It
@@ -31,6 +32,7 @@ enum Token {
     Close,
     Question,
     Colon,
+    Comma,
     Bang,
     Tilde,
     Op(BinaryOp),
@@ -45,6 +47,15 @@ fn tokens(text: &str) -> Option<Vec<Token>> {
         let c = b[i];
         if c.is_ascii_whitespace() {
             i += 1;
+            continue;
+        }
+        // A line continued with a backslash (C11 5.1.1.2 phase 2).
+        if c == b'\\' {
+            match (b.get(i + 1), b.get(i + 2)) {
+                (Some(b'\n'), _) => i += 2,
+                (Some(b'\r'), Some(b'\n')) => i += 3,
+                _ => return None,
+            }
             continue;
         }
         if c.is_ascii_digit() {
@@ -102,9 +113,10 @@ fn tokens(text: &str) -> Option<Vec<Token>> {
             (b')', _) => (Token::Close, 1),
             (b'?', _) => (Token::Question, 1),
             (b':', _) => (Token::Colon, 1),
+            (b',', _) => (Token::Comma, 1),
             (b'!', _) => (Token::Bang, 1),
             (b'~', _) => (Token::Tilde, 1),
-            // `=`, `,`, `[`, `.`, quotes, comments, `#`...: not this language.
+            // `=`, `[`, `.`, quotes, comments, `#`...: not this language.
             _ => return None,
         };
         // `++`, `--`, `<<=` and the like are not this language either.
@@ -232,10 +244,38 @@ impl Parser {
                     arg: Box::new(arg),
                 })
             }
-            None => self.primary()?,
+            None => self.postfix()?,
         };
         self.depth -= 1;
         Some(result)
+    }
+
+    /// A primary expression and the calls made of it (`0(0)`, `f(a, b)()`).
+    fn postfix(&mut self) -> Option<Expr> {
+        let mut e = self.primary()?;
+        while self.peek() == Some(Token::Open) {
+            self.at += 1;
+            self.deeper()?;
+            let mut args = Vec::new();
+            if self.peek() == Some(Token::Close) {
+                self.at += 1;
+            } else {
+                loop {
+                    args.push(self.conditional()?);
+                    match self.next()? {
+                        Token::Comma => {}
+                        Token::Close => break,
+                        _ => return None,
+                    }
+                }
+            }
+            self.depth -= 1;
+            e = node(ExprKind::Call {
+                callee: Box::new(e),
+                args,
+            });
+        }
+        Some(e)
     }
 
     fn primary(&mut self) -> Option<Expr> {
@@ -365,6 +405,18 @@ mod tests {
             "(((1) >= (2)) || ((3) != (4)))",
             "1 == 1 != 0",
             "2 > 1 >= 1 <= 1 < 2",
+            "0(0)",
+            "!0(0)",
+            "0(0) || 1",
+            "0(0) && 0",
+            "0(0, 0) == 1",
+            "0()",
+            "0(0)(1)",
+            "(0)(0)",
+            "__tauscan_unknown(__tauscan_unknown) || 1",
+            "!0(0(0))",
+            "0(0) || \\\n 0(0)",
+            "1 + \\\r\n 2",
         ];
         for t in texts {
             let (fast, full) = both(t);
@@ -389,6 +441,10 @@ mod tests {
             "'a'",
             "\"s\"",
             "1, 2",
+            "(1, 2)",
+            "0(1,)",
+            "0(,1)",
+            "1 \\ 2",
             "x = 1",
             "1 += 2",
             "1 <<= 2",
@@ -450,7 +506,19 @@ mod tests {
                 ])
                 .to_string();
         }
-        match rng.next() % 4 {
+        match rng.next() % 6 {
+            4 => format!(
+                "{}({})",
+                rng.pick(&["0", "__tauscan_unknown", "(1)", "7"]),
+                generate(rng, depth - 1)
+            ),
+            5 => format!(
+                "{}({}, {}){}",
+                rng.pick(&["0", "__tauscan_unknown"]),
+                generate(rng, depth - 1),
+                generate(rng, depth - 1),
+                rng.pick(&["", " \\\n", "()", "(0)"])
+            ),
             0 => format!(
                 "{}{}",
                 rng.pick(&["-", "+", "!", "~", "- ", "!("]),

@@ -33,7 +33,7 @@ const MAX_LEAVES: usize = 6;
 const AGREE: f64 = 1e-3;
 
 /// How the coefficient follows its quantities.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Law {
     /// `alpha = x / (1 + x)`, `x = dt / tau`: `dt / (dt + rc)`, `omega / (omega + 1)`.
     Rc,
@@ -67,7 +67,7 @@ impl Law {
 }
 
 /// A run-time quantity the coefficient depends on.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Quantity {
     /// Its C text where the evaluator met it (`cfg->cutoff_hz`, `dT`).
     pub text: String,
@@ -95,7 +95,7 @@ impl Quantity {
 }
 
 /// What the design fixes.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Figure {
     /// The cutoff is a constant of the code (the time constant is `1 / (2 pi hz)`).
     Cutoff { hz: f64 },
@@ -109,7 +109,7 @@ pub enum Figure {
     Several,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Design {
     pub law: Law,
     /// Which quantity is the period, and the factor from its unit to seconds.

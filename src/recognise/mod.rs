@@ -40,7 +40,7 @@ use crate::ir::*;
 use std::collections::BTreeSet;
 
 /// How the smoother is built.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Form {
     /// A first-order recursive smoother (EMA) with the state in output units.
     Ema,
@@ -60,7 +60,7 @@ impl Form {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Arithmetic {
     Float,
     Integer,
@@ -78,7 +78,7 @@ impl Arithmetic {
 }
 
 /// Where the state lives, which decides whether it survives between calls.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Storage {
     StaticLocal,
     Global,
@@ -107,7 +107,7 @@ impl Storage {
 }
 
 /// The smoothing coefficient as far as it can be known statically.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Coefficient {
     Known(f64),
     /// Computed from a quantity measured at run time (a `dt`): the filter adapts.
@@ -131,7 +131,7 @@ impl Coefficient {
 }
 
 /// The coefficient under another preprocessor branch.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Variant {
     pub condition: String,
     pub macro_name: String,
@@ -139,7 +139,7 @@ pub struct Variant {
     pub window: Option<u32>,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Smoother {
     /// The function the update (or the call of the filter function or macro) is in; empty
     /// for a macro definition that no code expands.
@@ -201,13 +201,13 @@ pub struct Smoother {
 
 /// Something recognition wants a reader to know: a form it saw but could not resolve, a
 /// budget that cut a walk short.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Note {
     pub span: Span,
     pub message: String,
 }
 
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, serde::Serialize, serde::Deserialize)]
 pub struct Recognition {
     pub smoothers: Vec<Smoother>,
     pub notes: Vec<Note>,

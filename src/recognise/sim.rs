@@ -13,7 +13,7 @@
 use crate::eval::num::{self, ArithError, Num, Target};
 use crate::ir::{BinaryOp, CType, UnaryOp};
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Node {
     Const(Num),
     Slot(usize),
@@ -80,7 +80,7 @@ impl Node {
 const MAX_SLOTS: usize = 8;
 
 /// An update ready to run: slot 0 is the state, the others are inputs.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Update {
     pub new_value: Node,
     pub state_type: CType,
@@ -91,7 +91,7 @@ pub struct Update {
 }
 
 /// Rising and falling dead band, in counts of the output.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct DeadBand {
     pub rising: u64,
     pub falling: u64,
