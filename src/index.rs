@@ -126,7 +126,7 @@ pub struct Program {
     macro_active: Vec<Vec<bool>>,
     /// Object-like macro bodies parsed as expressions, on first use.
     #[serde(skip)]
-    macro_exprs: Vec<Vec<std::sync::OnceLock<Option<Expr>>>>,
+    macro_exprs: Vec<Vec<std::sync::OnceLock<Box<Option<Expr>>>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
     /// Globals by file and name: the common lookup, kept cheap when a name recurs in
@@ -159,7 +159,7 @@ pub struct Program {
     closures: Vec<std::sync::OnceLock<Vec<usize>>>,
     /// Every macro body parsed as statements or an expression, on first use.
     #[serde(skip)]
-    macro_bodies: Vec<Vec<std::sync::OnceLock<MacroBody>>>,
+    macro_bodies: Vec<Vec<std::sync::OnceLock<Box<MacroBody>>>>,
     /// `#if` texts already judged (three-valued).
     #[serde(skip)]
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
@@ -462,7 +462,8 @@ impl Program {
         }
         let cell = self.macro_exprs.get(r.0)?.get(r.1)?;
         let expr = cell
-            .get_or_init(|| crate::parse::parse_expression(&m.body, m.span))
+            .get_or_init(|| Box::new(crate::parse::parse_expression(&m.body, m.span)))
+            .as_ref()
             .as_ref();
         Some((m, expr))
     }
@@ -1165,46 +1166,48 @@ impl Program {
             .flat_map(|(fi, f)| f.macros.iter().enumerate().map(move |(i, m)| ((fi, i), m)))
     }
 
-    /// A macro's body parsed once: as one expression when it is one, else as statements.
+    /// A macro's body parsed once: as one expression when it is one, else as statements
+    /// (the cell holds a box, so the table costs a pointer per macro until it is used).
     pub fn macro_body(&self, r: MacroRef) -> &MacroBody {
         static NEITHER: MacroBody = MacroBody::Neither;
         let Some(cell) = self.macro_bodies.get(r.0).and_then(|f| f.get(r.1)) else {
             return &NEITHER;
         };
-        cell.get_or_init(|| {
-            let m = &self.files[r.0].macros[r.1];
-            if m.body.trim().is_empty() || m.body.contains('#') {
-                return MacroBody::Neither;
+        cell.get_or_init(|| Box::new(Self::macro_body_of(&self.files[r.0].macros[r.1])))
+    }
+
+    fn macro_body_of(m: &MacroDef) -> MacroBody {
+        if m.body.trim().is_empty() || m.body.contains('#') {
+            return MacroBody::Neither;
+        }
+        // Every parameter in parentheses of its own: `(a) * (x)` with `a` alone in
+        // parentheses reads as a cast to a type `a` in C's grammar; `((a)) * (x)` does
+        // not. The parentheses leave no trace in the IR.
+        let wrapped = match &m.params {
+            Some(params) if !params.is_empty() => map_identifiers(&m.body, |ident| {
+                params
+                    .iter()
+                    .any(|p| p == ident)
+                    .then(|| format!("({ident})"))
+            }),
+            _ => m.body.clone(),
+        };
+        let body = wrapped.trim();
+        let looks_like_statements = body.ends_with(';')
+            || body.starts_with('{')
+            || body.starts_with("do")
+            || body.starts_with("if")
+            || body.starts_with("for")
+            || body.starts_with("while");
+        if !looks_like_statements {
+            if let Some(e) = crate::parse::parse_expression(body, m.span) {
+                return MacroBody::Expr(e);
             }
-            // Every parameter in parentheses of its own: `(a) * (x)` with `a` alone in
-            // parentheses reads as a cast to a type `a` in C's grammar; `((a)) * (x)` does
-            // not. The parentheses leave no trace in the IR.
-            let wrapped = match &m.params {
-                Some(params) if !params.is_empty() => map_identifiers(&m.body, |ident| {
-                    params
-                        .iter()
-                        .any(|p| p == ident)
-                        .then(|| format!("({ident})"))
-                }),
-                _ => m.body.clone(),
-            };
-            let body = wrapped.trim();
-            let looks_like_statements = body.ends_with(';')
-                || body.starts_with('{')
-                || body.starts_with("do")
-                || body.starts_with("if")
-                || body.starts_with("for")
-                || body.starts_with("while");
-            if !looks_like_statements {
-                if let Some(e) = crate::parse::parse_expression(body, m.span) {
-                    return MacroBody::Expr(e);
-                }
-            }
-            match crate::parse::parse_statements(body, m.span) {
-                Some(stmts) => MacroBody::Stmts(stmts),
-                None => MacroBody::Neither,
-            }
-        })
+        }
+        match crate::parse::parse_statements(body, m.span) {
+            Some(stmts) => MacroBody::Stmts(stmts),
+            None => MacroBody::Neither,
+        }
     }
 
     fn branch_holds(&self, branch: &CondBranch) -> bool {
