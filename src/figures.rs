@@ -32,9 +32,13 @@ fn rate(s: &Smoother) -> Option<Hertz> {
 }
 
 pub fn for_all(smoothers: &[Smoother]) -> Vec<SmootherFigures> {
-    let downstream: Vec<bool> = (0..smoothers.len())
-        .map(|i| smoothers.iter().any(|s| s.upstream == Some(i)))
-        .collect();
+    // Which smoothers feed another (one pass: marking each one's upstream).
+    let mut downstream = vec![false; smoothers.len()];
+    for s in smoothers {
+        if let Some(slot) = s.upstream.and_then(|u| downstream.get_mut(u)) {
+            *slot = true;
+        }
+    }
     smoothers
         .iter()
         .enumerate()

@@ -205,7 +205,19 @@ fn read_and(options: &ScanOptions, each: impl Fn(usize, &[u8]) + Sync) -> ParseO
 pub fn phase(name: &str, since: std::time::Instant) {
     static ON: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
     if *ON.get_or_init(|| std::env::var_os("TAUSCAN_PHASES").is_some()) {
-        eprintln!("phase {name:<12} {:8.3} s", since.elapsed().as_secs_f64());
+        // The resident memory at the stage's end, where the system tells it (Linux).
+        let rss = std::fs::read_to_string("/proc/self/status")
+            .ok()
+            .and_then(|status| {
+                let line = status.lines().find(|l| l.starts_with("VmRSS:"))?;
+                let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+                Some(format!("  rss {:6.1} MB", kb as f64 / 1024.0))
+            })
+            .unwrap_or_default();
+        eprintln!(
+            "phase {name:<14} {:8.3} s{rss}",
+            since.elapsed().as_secs_f64()
+        );
     }
 }
 

@@ -545,16 +545,14 @@ fn finish(program: &Program, result: &mut Recognition) {
             a.span.line,
             a.span.column,
             &a.state,
-            a.definition
-                .map(|d| (program.path(d.file).to_string(), d.line)),
+            a.definition.map(|d| (program.path(d.file), d.line)),
         )
             .cmp(&(
                 program.path(b.span.file),
                 b.span.line,
                 b.span.column,
                 &b.state,
-                b.definition
-                    .map(|d| (program.path(d.file).to_string(), d.line)),
+                b.definition.map(|d| (program.path(d.file), d.line)),
             ))
     });
     result.notes.sort_by(|a, b| {
@@ -565,15 +563,18 @@ fn finish(program: &Program, result: &mut Recognition) {
         ))
     });
     result.notes.dedup();
-    let definitions: Vec<(FileId, u32)> = result
-        .smoothers
-        .iter()
-        .filter_map(|s| s.definition.map(|d| (d.file, d.line)))
-        .collect();
+    // How many instances name each definition's place.
+    let mut definitions: std::collections::HashMap<(FileId, u32), usize> =
+        std::collections::HashMap::new();
+    for s in &result.smoothers {
+        if let Some(d) = s.definition {
+            *definitions.entry((d.file, d.line)).or_default() += 1;
+        }
+    }
     for s in &mut result.smoothers {
         if s.definition.is_none() {
             let here = (s.span.file, s.span.line);
-            s.instance_count = definitions.iter().filter(|d| **d == here).count();
+            s.instance_count = definitions.get(&here).copied().unwrap_or(0);
         }
     }
     link_cascades(&mut result.smoothers);
@@ -581,20 +582,25 @@ fn finish(program: &Program, result: &mut Recognition) {
 
 /// Marks a smoother whose only input is another smoother's state as its downstream stage.
 fn link_cascades(smoothers: &mut [Smoother]) {
-    let states: Vec<(String, Option<FuncRef>, Storage)> = smoothers
-        .iter()
-        .map(|s| (s.state.clone(), s.function_ref, s.storage))
-        .collect();
+    // Each state's smoothers, in list order (the first that fits is the upstream).
+    let mut by_state: std::collections::HashMap<String, Vec<(usize, Option<FuncRef>, Storage)>> =
+        std::collections::HashMap::new();
+    for (i, s) in smoothers.iter().enumerate() {
+        by_state
+            .entry(s.state.clone())
+            .or_default()
+            .push((i, s.function_ref, s.storage));
+    }
     for s in smoothers.iter_mut() {
         s.upstream = None;
-        if s.inputs.len() != 1 {
+        if s.inputs.len() != 1 || s.inputs[0] == s.state {
             continue;
         }
-        let input = &s.inputs[0];
-        s.upstream = states.iter().position(|(state, f, storage)| {
-            state == input
-                && *state != s.state
-                && (*f == s.function_ref || !matches!(storage, Storage::Local))
+        s.upstream = by_state.get(&s.inputs[0]).and_then(|candidates| {
+            candidates
+                .iter()
+                .find(|(_, f, storage)| *f == s.function_ref || !matches!(storage, Storage::Local))
+                .map(|(i, _, _)| *i)
         });
     }
 }
