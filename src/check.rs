@@ -304,7 +304,10 @@ fn apply_input_ranges(smoothers: &mut [crate::recognise::Smoother], inputs: &[In
 
 /// Runs the gate.
 pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
+    let started = std::time::Instant::now();
     let applied = apply(scan, spec);
+    crate::scan::phase("  apply", started);
+    let started = std::time::Instant::now();
     let ctx = Context {
         scan,
         spec,
@@ -316,6 +319,7 @@ pub fn run(scan: &mut Scan, spec: &Spec) -> CheckResult {
         tags: applied.tags,
     };
     let findings = rules::run(&ctx);
+    crate::scan::phase("  rules", started);
     CheckResult {
         ids: applied.ids,
         findings,

@@ -40,7 +40,8 @@ pub struct Write {
 pub struct CallSite {
     pub caller: FuncRef,
     pub callee: String,
-    pub args: Vec<Expr>,
+    /// The call's arguments, shared with the IR's call expression.
+    pub args: std::sync::Arc<Vec<Expr>>,
     pub span: Span,
 }
 
@@ -328,7 +329,7 @@ impl Program {
                 .or_default()
                 .push(i);
             self.calls_by_caller.entry(c.caller).or_default().push(i);
-            for a in &c.args {
+            for a in c.args.iter() {
                 if matches!(
                     a.kind,
                     ExprKind::Unary {

@@ -225,9 +225,12 @@ pub enum ExprKind {
         ty: CType,
         arg: Box<Expr>,
     },
+    /// `args` is shared with the index's call table (`index::CallSite`), which keeps
+    /// every call's arguments: shared, not copied. Code that rewrites them copies on write
+    /// (`Arc::make_mut`).
     Call {
         callee: Box<Expr>,
-        args: Vec<Expr>,
+        args: std::sync::Arc<Vec<Expr>>,
     },
     Conditional {
         cond: Box<Expr>,
@@ -265,7 +268,7 @@ impl Expr {
             ExprKind::IncDec { target, .. } => target.walk(visit),
             ExprKind::Call { callee, args } => {
                 callee.walk(visit);
-                for arg in args {
+                for arg in args.iter() {
                     arg.walk(visit);
                 }
             }
@@ -359,7 +362,9 @@ impl Expr {
             ) => o == p && a.same_as(b) && c.same_as(d),
             (Cast { ty: t, arg: a }, Cast { ty: u, arg: b }) => t == u && a.same_as(b),
             (Call { callee: a, args: x }, Call { callee: b, args: y }) => {
-                a.same_as(b) && x.len() == y.len() && x.iter().zip(y).all(|(p, q)| p.same_as(q))
+                a.same_as(b)
+                    && x.len() == y.len()
+                    && x.iter().zip(y.iter()).all(|(p, q)| p.same_as(q))
             }
             (
                 Assign {

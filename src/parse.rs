@@ -1262,7 +1262,7 @@ pub fn relocate_expr(expr: &mut Expr, anchor: Span) {
         ExprKind::IncDec { target, .. } => relocate_expr(target, anchor),
         ExprKind::Call { callee, args } => {
             relocate_expr(callee, anchor);
-            for a in args {
+            for a in std::sync::Arc::make_mut(args) {
                 relocate_expr(a, anchor);
             }
         }
@@ -2244,9 +2244,10 @@ impl Lower<'_> {
                             .into_iter()
                             .filter(|c| c.kind() != kind::COMMENT)
                             .map(|c| self.expr(c, depth + 1))
-                            .collect()
+                            .collect::<Vec<Expr>>()
                     })
                     .unwrap_or_default();
+                let args = std::sync::Arc::new(args);
                 ExprKind::Call {
                     callee: Box::new(callee),
                     args,

@@ -959,7 +959,7 @@ impl<'p> Evaluator<'p> {
                 let mut failed_args: HashMap<String, Unknown> = HashMap::new();
                 let caller_scope = Scope::in_function(call.caller);
                 self.record(call.span.file, call.span.line, call.to_string_call());
-                for (p, a) in function.params.iter().zip(&call.args) {
+                for (p, a) in function.params.iter().zip(call.args.iter()) {
                     if a.to_string() == address {
                         continue;
                     }

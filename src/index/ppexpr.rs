@@ -272,7 +272,7 @@ impl Parser {
             self.depth -= 1;
             e = node(ExprKind::Call {
                 callee: Box::new(e),
-                args,
+                args: std::sync::Arc::new(args),
             });
         }
         Some(e)

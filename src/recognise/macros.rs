@@ -159,7 +159,7 @@ fn repair_casts(e: &mut Expr, fix: &dyn Fn(&Expr) -> Option<Expr>) -> bool {
         ExprKind::IncDec { target, .. } => changed |= repair_casts(target, fix),
         ExprKind::Call { callee, args } => {
             changed |= repair_casts(callee, fix);
-            for a in args {
+            for a in std::sync::Arc::make_mut(args) {
                 changed |= repair_casts(a, fix);
             }
         }
@@ -336,7 +336,7 @@ pub fn replace_in_expr(expr: &mut Expr, f: &dyn Fn(&Expr) -> Option<Expr>) {
         ExprKind::IncDec { target, .. } => replace_in_expr(target, f),
         ExprKind::Call { callee, args } => {
             replace_in_expr(callee, f);
-            for a in args {
+            for a in std::sync::Arc::make_mut(args) {
                 replace_in_expr(a, f);
             }
         }

@@ -1064,7 +1064,7 @@ impl Graph {
                         ExprKind::Ident(self.name(callee).to_string()),
                         span,
                     )),
-                    args: out,
+                    args: std::sync::Arc::new(out),
                 }
             }
             Node::CallIndirect { .. } | Node::Phi { .. } | Node::Huge(_) => return None,

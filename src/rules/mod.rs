@@ -227,7 +227,7 @@ pub fn run(ctx: &Context) -> Vec<Finding> {
     findings.sort_by(|a, b| {
         let key = |f: &Finding| {
             (
-                f.span.map(|s| ctx.scan.program.path(s.file).to_string()),
+                f.span.map(|s| ctx.scan.program.path(s.file)),
                 f.span.map(|s| s.line),
                 f.spec_line,
                 f.rule,
