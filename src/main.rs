@@ -103,8 +103,9 @@ struct ScanArgs {
     /// Take the files and their -D/-I flags from a JSON compilation database.
     #[arg(long, value_name = "FILE")]
     compile_commands: Option<PathBuf>,
-    /// Keep each file's parsed form in this folder, so that the next scan of an unchanged
-    /// file is faster. Safe to delete; never changes the results.
+    /// Keep each file's parsed form, and the whole program's index and smoothers, in this
+    /// folder, so that the next scan of unchanged files (or an unchanged tree) is faster.
+    /// Safe to delete; never changes the results.
     #[arg(long, value_name = "DIR")]
     cache: Option<PathBuf>,
 }

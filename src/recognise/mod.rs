@@ -618,6 +618,27 @@ mod tests {
     }
 
     #[test]
+    fn a_cascade_links_to_the_first_stage_of_that_state_it_can_see() {
+        // `stage` is a plain local of `prime` (another function's, which `shade` cannot
+        // read) and a global updated in `vent`: `shade`'s input is the global one.
+        let found = find(
+            "float stage, out;\n\
+             void prime(float u) { float stage = 0.0f; stage += 0.5f * (u - stage); }\n\
+             void vent(float u) { stage += 0.25f * (u - stage); }\n\
+             void shade(void) { out += 0.1f * (stage - out); }\n",
+        );
+        let index = |function: &str| {
+            found
+                .iter()
+                .position(|s| s.function == function)
+                .unwrap_or_else(|| panic!("no smoother in {function}: {found:?}"))
+        };
+        assert_eq!(found[index("prime")].storage, Storage::Local);
+        assert_eq!(found[index("shade")].upstream, Some(index("vent")));
+        assert_eq!(found[index("vent")].upstream, None);
+    }
+
+    #[test]
     fn float_ema_spellings_give_the_same_alpha() {
         for body in [
             "y += 0.25f * (u - y);",
