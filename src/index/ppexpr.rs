@@ -15,8 +15,13 @@ use crate::ir::{BinaryOp, Expr, ExprKind, Span, UnaryOp};
 /// The name an unknown macro is replaced with before parsing (see `Program::pp_tri`).
 pub const UNKNOWN: &str = "__tauscan_unknown";
 
-/// Deepest nesting of parentheses and operators taken; deeper text is declined.
+/// Deepest recursion of this parser; deeper text is declined.
 const DEPTH_LIMIT: u32 = 200;
+/// Most operators, parentheses and calls taken in one text. Each can add a level to the
+/// full parse's tree (a chain `a || b || ...` nests one per operator), which gives up past
+/// `parse::MAX_DEPTH` levels; with fewer than half as many the full parse never does, so
+/// the two agree. Longer texts are left to it.
+const NESTING_LIMIT: usize = 90;
 /// Longest text taken; longer text is declined.
 const LENGTH_LIMIT: usize = 1 << 16;
 
@@ -60,8 +65,15 @@ fn tokens(text: &str) -> Option<Vec<Token>> {
         }
         if c.is_ascii_digit() {
             let start = i;
-            while i < b.len() && (b[i].is_ascii_alphanumeric() || b[i] == b'.' || b[i] == b'\'') {
+            while i < b.len() && (b[i].is_ascii_alphanumeric() || b[i] == b'.') {
                 i += 1;
+            }
+            // A preprocessing number runs on through a sign after an exponent letter
+            // (C11 6.4.8: `0x1E+1` is one token), and digit separators are read
+            // differently by the full parse: leave both to it.
+            let exponent = matches!(b[i - 1], b'e' | b'E' | b'p' | b'P');
+            if b.get(i) == Some(&b'\'') || (exponent && matches!(b.get(i), Some(b'+' | b'-'))) {
+                return None;
             }
             match crate::parse::parse_number(&text[start..i])? {
                 ExprKind::Int {
@@ -332,8 +344,21 @@ pub fn parse(text: &str) -> Option<Expr> {
     if text.len() > LENGTH_LIMIT {
         return None;
     }
+    let tokens = tokens(text)?;
+    let nesting = tokens
+        .iter()
+        .filter(|t| {
+            matches!(
+                t,
+                Token::Op(_) | Token::Open | Token::Question | Token::Bang | Token::Tilde
+            )
+        })
+        .count();
+    if nesting > NESTING_LIMIT {
+        return None;
+    }
     let mut p = Parser {
-        tokens: tokens(text)?,
+        tokens,
         at: 0,
         depth: 0,
     };
@@ -445,6 +470,14 @@ mod tests {
             "0(1,)",
             "0(,1)",
             "1 \\ 2",
+            "0x1E+1",
+            "0x1e-1",
+            "0x1e+0x1e",
+            "1e+1",
+            "0x1p-1",
+            "1'0",
+            "0x'1",
+            "2'U",
             "x = 1",
             "1 += 2",
             "1 <<= 2",
@@ -457,6 +490,26 @@ mod tests {
         ] {
             assert!(parse(t).is_none(), "taken: {t}");
         }
+    }
+
+    #[test]
+    fn long_chains_are_left_to_the_full_parse() {
+        // The full parse nests one level per operator of a chain and gives up past its
+        // depth limit (`parse::MAX_DEPTH`); this parser must not answer where it would not.
+        for n in [150, 199, 200, 230, 400] {
+            for text in [
+                vec!["1"; n].join(" || "),
+                vec!["1"; n].join(" + "),
+                format!("!({})", vec!["0"; n].join(" || ")),
+                format!("0{} || 1", "(0)".repeat(n)),
+            ] {
+                let (fast, full) = both(&text);
+                assert!(fast.is_none_or(|f| f == full), "{n}: {text}");
+                assert!(fast.is_none(), "{n} operators taken");
+            }
+        }
+        // Short chains are still this parser's.
+        assert!(parse(&vec!["1"; 40].join(" || ")).is_some());
     }
 
     #[test]
