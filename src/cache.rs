@@ -128,7 +128,9 @@ impl Cache {
         let read: Option<(Program, Recognition)> =
             stored.and_then(|bytes| postcard::from_bytes(&bytes).ok());
         match read {
-            Some((program, recognition)) if program.fits(&files) => {
+            Some((program, recognition))
+                if program.fits(&files) && recognition_fits(&recognition, &files) =>
+            {
                 Ok((program.attach(files, paths, options), recognition))
             }
             _ => Err((files, paths, options)),
@@ -173,6 +175,23 @@ impl Cache {
         };
         self.write(&entry.path, &encoded);
     }
+}
+
+/// Whether a recognition read back from a cache names only these files, their functions
+/// and its own smoothers.
+fn recognition_fits(recognition: &Recognition, files: &[FileIr]) -> bool {
+    let file = |id: FileId| (id.0 as usize) < files.len();
+    let n = recognition.smoothers.len();
+    recognition.smoothers.iter().all(|s| {
+        file(s.span.file)
+            && s.definition.is_none_or(|d| file(d.file))
+            && s.function_ref.is_none_or(|r| {
+                files
+                    .get(r.file)
+                    .is_some_and(|f| r.index < f.functions.len())
+            })
+            && s.upstream.is_none_or(|u| u < n)
+    }) && recognition.notes.iter().all(|note| file(note.span.file))
 }
 
 /// What a program is built from, handed back when no entry serves it.
@@ -270,6 +289,53 @@ mod tests {
         assert_eq!(format!("{back:?}"), format!("{fresh:?}"));
         // Other bytes are another entry.
         assert!(cache.load(&cache.entry(b"int x;\n"), FileId(7)).is_none());
+    }
+
+    #[test]
+    fn a_program_entry_is_used_only_for_files_it_fits() {
+        let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("{e}"));
+        let cache = Cache::open(dir.path()).unwrap_or_else(|e| panic!("{e}"));
+        let two = b"static int y, z;\nvoid f(int u) { y += (u - y) >> 3; }\nvoid g(int u) { z += (u - z) >> 2; f(u); }\n";
+        let one = b"static int y;\nvoid f(int u) { y += (u - y) >> 3; }\n";
+        let options = ProgramOptions::default();
+        let program = Program::build(
+            vec![crate::parse::parse_file(FileId(0), two)],
+            vec!["vent.c".into()],
+            options.clone(),
+        );
+        let recognition = crate::recognise::recognise(&program, &RecogniseOptions::default());
+        let file_entry = cache.entry(two);
+        let entry = cache.program_entry(
+            &[("vent.c", &file_entry)],
+            &options,
+            &RecogniseOptions::default(),
+        );
+        cache.store_program(&entry, &program, &recognition);
+        // The files it was made from: served, with the same smoothers.
+        let served = cache.load_program(
+            &entry,
+            vec![crate::parse::parse_file(FileId(0), two)],
+            vec!["vent.c".into()],
+            options.clone(),
+        );
+        match served {
+            Ok((_, back)) => assert_eq!(back.smoothers, recognition.smoothers),
+            Err(_) => panic!("the entry was not served for its own files"),
+        }
+        // Files of another shape (one function where it holds two): refused, handed back.
+        let refused = cache.load_program(
+            &entry,
+            vec![crate::parse::parse_file(FileId(0), one)],
+            vec!["vent.c".into()],
+            options,
+        );
+        match refused {
+            Ok(_) => panic!("an entry was served for files it does not fit"),
+            Err((files, paths, _)) => {
+                assert_eq!(files.len(), 1);
+                assert_eq!(paths, vec!["vent.c".to_string()]);
+            }
+        }
     }
 
     #[test]

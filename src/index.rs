@@ -266,15 +266,64 @@ impl Program {
     }
 
     /// Whether `self`, read back from a cache without its files, was built from files of
-    /// these shapes (a cheap guard against an entry that does not belong to them).
+    /// these shapes: every position its tables hold is one of these files' macros,
+    /// functions, globals, enums and structs, and every write and call it lists is there.
+    /// An entry that decodes but does not fit (a damaged disk, another tool's file) is not
+    /// used, rather than followed to a panic.
     pub fn fits(&self, files: &[FileIr]) -> bool {
-        self.includes.len() == files.len()
-            && self.macro_active.len() == files.len()
+        let n = files.len();
+        let macro_at =
+            |&(fi, i): &(usize, usize)| files.get(fi).is_some_and(|f| i < f.macros.len());
+        let function_at = |r: &FuncRef| {
+            files
+                .get(r.file)
+                .is_some_and(|f| r.index < f.functions.len())
+        };
+        let global_at =
+            |&(fi, i): &(usize, usize)| files.get(fi).is_some_and(|f| i < f.globals.len());
+        let writes = self.writes.len();
+        let calls = self.calls.len();
+        self.includes.len() == n
+            && self.macro_active.len() == n
             && self
                 .macro_active
                 .iter()
                 .zip(files)
                 .all(|(active, f)| active.len() == f.macros.len())
+            && self.macros.values().flatten().all(macro_at)
+            && self
+                .enums
+                .values()
+                .all(|&(fi, i)| files.get(fi).is_some_and(|f| i < f.enums.len()))
+            && self
+                .structs
+                .values()
+                .all(|&(fi, i)| files.get(fi).is_some_and(|f| i < f.structs.len()))
+            && self.globals.values().flatten().all(global_at)
+            && self
+                .globals_by_file
+                .iter()
+                .all(|((fi, _), list)| list.iter().all(|&i| global_at(&(*fi, i))))
+            && self.functions.values().flatten().all(function_at)
+            && self.writes.iter().all(|w| function_at(&w.function))
+            && self.calls.iter().all(|c| function_at(&c.caller))
+            && self.calls_by_caller.keys().all(function_at)
+            && [
+                &self.writes_by_target,
+                &self.calls_by_callee,
+                &self.calls_by_address_arg,
+                &self.calls_by_element_arg,
+            ]
+            .iter()
+            .zip([writes, calls, calls, calls])
+            .all(|(table, len)| table.values().flatten().all(|&i| i < len))
+            && self
+                .writes_by_file_target
+                .values()
+                .flatten()
+                .all(|&i| i < writes)
+            && self.calls_by_caller.values().flatten().all(|&i| i < calls)
+            && self.includes.iter().flatten().flatten().all(|&f| f < n)
     }
 
     /// A program read back from a cache (its tables only), given its files, paths and
