@@ -55,8 +55,19 @@ row() {
     # The cache: filled by one run, then timed on the unchanged tree.
     local cache="$work/cache-$(basename "$tree")"
     rm -rf "$cache"
-    "$bin" check --format json --spec /dev/null --cache "$cache" "$tree" > /dev/null 2>&1 || true
+    "$bin" check --format json --spec /dev/null --cache "$cache" "$tree" > "$work/filling.json" 2>/dev/null || true
     read -r cached _ < <(measure "$bin" check --format json --spec /dev/null --cache "$cache" "$tree")
+    # The cache changes the time, never the result: the same JSON without it, filling it
+    # and reading it, on one thread and on two, or the benchmark stops here.
+    "$bin" check --format json --spec /dev/null "$tree" > "$work/plain.json" 2>/dev/null || true
+    RAYON_NUM_THREADS=1 "$bin" check --format json --spec /dev/null "$tree" > "$work/one.json" 2>/dev/null || true
+    "$bin" check --format json --spec /dev/null --cache "$cache" "$tree" > "$work/reading.json" 2>/dev/null || true
+    for other in filling one reading; do
+        if ! cmp -s "$work/plain.json" "$work/$other.json"; then
+            echo "bench: $name: the JSON of the $other run differs from the plain run's" >&2
+            exit 1
+        fi
+    done
     printf '%-26s %9s %8.3f %8.3f %8.3f %7.2f %8.1f %8.1f %8.3f %8.2f %8.3f %7.2f\n' \
         "$name" "$lines" "$bare" "$parse" "$check" "$(echo "$check / $bare" | bc -l)" \
         "$(echo "$bare_rss / 1024" | bc -l)" "$(echo "$rss / 1024" | bc -l)" \

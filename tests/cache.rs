@@ -61,6 +61,47 @@ fn assert_same(what: &str, a: &(Vec<u8>, Option<i32>), b: &(Vec<u8>, Option<i32>
     );
 }
 
+/// Whether a folder holds a `.c` or `.h` file at any depth.
+fn holds_c_files(dir: &Path) -> bool {
+    std::fs::read_dir(dir).unwrap().any(|e| {
+        let p = e.unwrap().path();
+        if p.is_dir() {
+            holds_c_files(&p)
+        } else {
+            p.extension().is_some_and(|x| x == "c" || x == "h")
+        }
+    })
+}
+
+#[test]
+fn every_fixture_tree_lists_the_same_with_and_without_the_cache() {
+    let mut trees: Vec<PathBuf> = std::fs::read_dir(fixture(""))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.is_dir())
+        .collect();
+    trees.sort();
+    assert!(trees.len() >= 10, "fixture trees: {trees:?}");
+    let args = ["list", "tree", "--format", "json"];
+    for tree in trees {
+        let name = tree.file_name().unwrap().to_string_lossy().into_owned();
+        let dir = tempfile::tempdir().unwrap();
+        copy_tree(&tree, &dir.path().join("tree"));
+        let cache = dir.path().join("cache");
+        let plain = output(dir.path(), &args, None);
+        let filling = output(dir.path(), &args, Some(&cache));
+        assert_same(&format!("{name}, filling the cache"), &plain, &filling);
+        let reading = output(dir.path(), &args, Some(&cache));
+        assert_same(&format!("{name}, reading the cache"), &plain, &reading);
+        let holds_c = holds_c_files(&tree);
+        assert_eq!(
+            cache.join("program").is_dir(),
+            holds_c,
+            "{name}: a whole-program entry is kept for a tree with C files, only then"
+        );
+    }
+}
+
 #[test]
 fn cached_scans_print_exactly_what_uncached_scans_print() {
     for (tree, args) in [
