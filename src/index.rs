@@ -843,7 +843,7 @@ impl Program {
         visiting.push(name.to_string());
         let mut result = false;
         for &(fi, i) in refs {
-            let cond = self.files[fi].macros[i].condition.clone();
+            let cond = &self.files[fi].macros[i].condition;
             let holds = cond.levels.iter().all(|level| {
                 level
                     .earlier
@@ -908,8 +908,8 @@ impl Program {
         visiting.push(name.to_string());
         let mut result = Tri::False;
         for &(fi, i) in refs {
-            let cond = self.files[fi].macros[i].condition.clone();
-            let here = self.condition_tri_by(&cond, &mut |n| {
+            let cond = &self.files[fi].macros[i].condition;
+            let here = self.condition_tri_by(cond, &mut |n| {
                 self.defined_tri_rec(n, visiting, memo, depth + 1)
             });
             result = result.or(here);
