@@ -113,6 +113,24 @@ pub enum BinaryOp {
 }
 
 impl BinaryOp {
+    /// How tightly the operator binds, 1 (`||`) to 10 (`*`, `/`, `%`), as C's grammar
+    /// orders the binary operators (C11 6.5.5-6.5.14).
+    pub fn precedence(self) -> u8 {
+        use BinaryOp::*;
+        match self {
+            Mul | Div | Rem => 10,
+            Add | Sub => 9,
+            Shl | Shr => 8,
+            Lt | Le | Gt | Ge => 7,
+            Eq | Ne => 6,
+            BitAnd => 5,
+            BitXor => 4,
+            BitOr => 3,
+            And => 2,
+            Or => 1,
+        }
+    }
+
     pub fn text(self) -> &'static str {
         use BinaryOp::*;
         match self {
@@ -449,21 +467,8 @@ fn precedence(expr: &Expr) -> u8 {
         ExprKind::Comma(_) => 1,
         ExprKind::Assign { .. } => 2,
         ExprKind::Conditional { .. } => 3,
-        ExprKind::Binary { op, .. } => {
-            use BinaryOp::*;
-            match op {
-                Or => 4,
-                And => 5,
-                BitOr => 6,
-                BitXor => 7,
-                BitAnd => 8,
-                Eq | Ne => 9,
-                Lt | Le | Gt | Ge => 10,
-                Shl | Shr => 11,
-                Add | Sub => 12,
-                Mul | Div | Rem => 13,
-            }
-        }
+        // Above the comma, assignment and conditional levels.
+        ExprKind::Binary { op, .. } => 3 + op.precedence(),
         ExprKind::Unary { .. } | ExprKind::Cast { .. } => 14,
         _ => 16,
     }

@@ -394,10 +394,9 @@ fn index_and_recognise(
             .zip(&entries)
             .map(|(p, e)| e.as_ref().map(|e| (p.as_str(), e)))
             .collect();
-        let named = named.filter(|n| n.len() == files.len())?;
         Some((
             cache,
-            cache.program_entry(&named, &options.program, &options.recognise),
+            cache.program_entry(&named?, &options.program, &options.recognise),
         ))
     });
     let started = std::time::Instant::now();

@@ -149,24 +149,6 @@ fn tokens(text: &str) -> Option<Vec<Token>> {
     Some(out)
 }
 
-/// Binding strength of a binary operator (higher binds tighter), as C's grammar orders
-/// them (C11 6.5.5-6.5.14).
-fn strength(op: BinaryOp) -> u8 {
-    use BinaryOp::*;
-    match op {
-        Mul | Div | Rem => 10,
-        Add | Sub => 9,
-        Shl | Shr => 8,
-        Lt | Le | Gt | Ge => 7,
-        Eq | Ne => 6,
-        BitAnd => 5,
-        BitXor => 4,
-        BitOr => 3,
-        And => 2,
-        Or => 1,
-    }
-}
-
 struct Parser {
     tokens: Vec<Token>,
     at: usize,
@@ -221,7 +203,7 @@ impl Parser {
     fn binary(&mut self, min: u8) -> Option<Expr> {
         let mut lhs = self.unary()?;
         while let Some(Token::Op(op)) = self.peek() {
-            let s = strength(op);
+            let s = op.precedence();
             if s < min {
                 break;
             }

@@ -825,21 +825,8 @@ impl Graph {
     fn precedence(&self, v: V) -> u8 {
         match self.node(v) {
             Node::Cond(..) | Node::Phi { .. } => 3,
-            Node::Binary(op, ..) => {
-                use BinaryOp::*;
-                match op {
-                    Or => 4,
-                    And => 5,
-                    BitOr => 6,
-                    BitXor => 7,
-                    BitAnd => 8,
-                    Eq | Ne => 9,
-                    Lt | Le | Gt | Ge => 10,
-                    Shl | Shr => 11,
-                    Add | Sub => 12,
-                    Mul | Div | Rem => 13,
-                }
-            }
+            // Above the conditional's level, as `ir`'s printing counts.
+            Node::Binary(op, ..) => 3 + op.precedence(),
             Node::Unary(..) | Node::Cast(..) | Node::Deref(_) | Node::AddrOf(_) => 14,
             Node::Int { .. } | Node::Float { .. } => 16,
             _ => 16,

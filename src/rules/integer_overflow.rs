@@ -207,9 +207,9 @@ fn spill_at(
     };
     let text = format!(
         "{} {} {}",
-        operand_text(a, precedence(op), false, names),
+        operand_text(a, op.precedence(), false, names),
         op.text(),
-        operand_text(b, precedence(op), true, names)
+        operand_text(b, op.precedence(), true, names)
     );
     Some(Spill {
         text,
@@ -225,22 +225,6 @@ fn spill_at(
 /// The precedence of a cast or a unary operator, above every binary one.
 const CAST: u8 = 11;
 
-fn precedence(op: BinaryOp) -> u8 {
-    use BinaryOp::*;
-    match op {
-        Mul | Div | Rem => 10,
-        Add | Sub => 9,
-        Shl | Shr => 8,
-        Lt | Le | Gt | Ge => 7,
-        Eq | Ne => 6,
-        BitAnd => 5,
-        BitXor => 4,
-        BitOr => 3,
-        And => 2,
-        Or => 1,
-    }
-}
-
 /// An operand printed inside an operation of precedence `parent`, with the parentheses
 /// it needs. Inside a shift, a comparison or a bitwise operation every operation gets its
 /// parentheses, as careful C writes them (`(u - y) >> 3`).
@@ -248,7 +232,7 @@ fn operand_text(child: &Node, parent: u8, right: bool, names: &[String]) -> Stri
     let text = node_text(child, names);
     match child {
         Node::Binary(op, ..)
-            if parent < 9 || precedence(*op) < parent || (right && precedence(*op) == parent) =>
+            if parent < 9 || op.precedence() < parent || (right && op.precedence() == parent) =>
         {
             format!("({text})")
         }
@@ -279,7 +263,7 @@ pub(super) fn node_text(node: &Node, names: &[String]) -> String {
         }
         Node::Cast(ty, a) => format!("({ty}){}", operand_text(a, CAST, false, names)),
         Node::Binary(op, a, b) => {
-            let p = precedence(*op);
+            let p = op.precedence();
             format!(
                 "{} {} {}",
                 operand_text(a, p, false, names),
