@@ -164,6 +164,7 @@ impl Cache {
         let mut ir: FileIr =
             crate::ir::with_file_id(file, || postcard::from_bytes(&stored)).ok()?;
         ir.file = file;
+        ir.share_conditions();
         Some(ir)
     }
 

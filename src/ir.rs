@@ -787,6 +787,33 @@ pub struct FileIr {
     pub prototypes: Vec<(String, CType)>,
 }
 
+impl FileIr {
+    /// Makes equal conditions of neighbouring definitions one shared value again, as the
+    /// lowering made them (an IR decoded from bytes holds a copy per definition: a
+    /// vendor header's thousands of macros under one `#if` would each hold their own).
+    pub fn share_conditions(&mut self) {
+        fn share(last: &mut Option<Condition>, c: &mut Condition) {
+            match last {
+                Some(l) if l.levels == c.levels => c.levels = l.levels.clone(),
+                _ => *last = Some(c.clone()),
+            }
+        }
+        let mut last = None;
+        for m in &mut self.macros {
+            share(&mut last, &mut m.condition);
+        }
+        for g in &mut self.globals {
+            share(&mut last, &mut g.condition);
+        }
+        for f in &mut self.functions {
+            share(&mut last, &mut f.condition);
+        }
+        for i in &mut self.includes {
+            share(&mut last, &mut i.condition);
+        }
+    }
+}
+
 /// One `#include` directive: the path as written (without quotes or brackets).
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Include {

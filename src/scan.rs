@@ -267,43 +267,182 @@ fn run_here(options: &ScanOptions) -> Scan {
         Progress::add(&p.files_total, walked.files.len());
     }
 
-    let parsed: Vec<Read> = walked
-        .files
-        .par_iter()
-        .enumerate()
-        .map(|(i, source)| {
-            let id = FileId(i as u32);
-            if let Some(p) = &options.progress {
-                Progress::add(&p.files_read, 1);
-            }
-            match std::fs::read(&source.absolute) {
-                // A file named on the command line that holds NUL bytes is not C text.
-                Ok(bytes) if source.named && bytes.contains(&0) => (
-                    FileIr {
-                        file: id,
-                        ..FileIr::default()
-                    },
-                    Some("holds NUL bytes: not C source text; not read".to_string()),
-                    None,
-                ),
-                Ok(bytes) => {
-                    let (ir, entry) = lower(id, &bytes, options.cache.as_ref());
-                    (ir, None, entry)
-                }
-                Err(e) => (
-                    FileIr {
-                        file: id,
-                        ..FileIr::default()
-                    },
-                    Some(format!("cannot be read: {e}")),
-                    None,
-                ),
-            }
-        })
-        .collect();
+    let parsed = read_and_lower(&walked.files, options);
     phase("read+lower", started);
     let paths: Vec<String> = walked.files.iter().map(|f| f.relative.clone()).collect();
     analyse(walked.root, parsed, paths, notes, incomplete, options)
+}
+
+/// Files smaller than this are parsed even when another file holds the same bytes:
+/// fingerprinting them would cost about what it saves.
+const SHARED_MIN_BYTES: u64 = 4096;
+
+/// Reads and lowers every file, in parallel and in walk order. A file whose bytes are
+/// exactly another's (a vendor's headers copied per board) is not parsed again: it gets
+/// the first copy's IR under its own `FileId` (the lowering reads nothing but the bytes,
+/// as the per-file cache also relies on).
+fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read> {
+    let progress = |n: usize| {
+        if let Some(p) = &options.progress {
+            Progress::add(&p.files_read, n);
+        }
+    };
+    // Each group is a file and the later files that may hold its bytes, read by one
+    // worker in turn, so that only one file's bytes and encoded IR wait for its copies.
+    let mut groups: Vec<Vec<usize>> = Vec::with_capacity(files.len());
+    let mut group_of: Vec<usize> = Vec::with_capacity(files.len());
+    for (i, first) in first_copies(files).into_iter().enumerate() {
+        match first {
+            Some(f) => {
+                let g = group_of[f];
+                groups[g].push(i);
+                group_of.push(g);
+            }
+            None => {
+                group_of.push(groups.len());
+                groups.push(vec![i]);
+            }
+        }
+    }
+    let read: Vec<Vec<(usize, Read)>> = groups
+        .par_iter()
+        .map(|group| {
+            let mut out = Vec::with_capacity(group.len());
+            let (&first, copies) = match group.split_first() {
+                Some(split) => split,
+                None => return out,
+            };
+            progress(1);
+            let (read, bytes) = read_one(FileId(first as u32), &files[first], options);
+            let shared = match bytes {
+                Some(bytes) if !copies.is_empty() && read.1.is_none() => {
+                    postcard::to_stdvec(&read.0).ok().map(|ir| (bytes, ir))
+                }
+                _ => None,
+            };
+            let entry = read.2.clone();
+            out.push((first, read));
+            for &i in copies {
+                progress(1);
+                let id = FileId(i as u32);
+                let source = &files[i];
+                let read = match std::fs::read(&source.absolute) {
+                    Ok(bytes) => {
+                        // Equal bytes, compared here (the fingerprint only grouped them).
+                        let decoded = shared.as_ref().and_then(|(first_bytes, ir)| {
+                            if *first_bytes != bytes || (source.named && bytes.contains(&0)) {
+                                return None;
+                            }
+                            let mut ir: FileIr =
+                                crate::ir::with_file_id(id, || postcard::from_bytes(ir).ok())?;
+                            ir.share_conditions();
+                            Some(ir)
+                        });
+                        match decoded {
+                            Some(ir) => (ir, None, entry.clone()),
+                            None => read_bytes(id, source, &bytes, options),
+                        }
+                    }
+                    Err(e) => placeholder(id, Some(format!("cannot be read: {e}"))),
+                };
+                out.push((i, read));
+            }
+            out
+        })
+        .collect();
+    let mut out: Vec<Option<Read>> = Vec::new();
+    out.resize_with(files.len(), || None);
+    for (i, r) in read.into_iter().flatten() {
+        out[i] = Some(r);
+    }
+    out.into_iter()
+        .enumerate()
+        .map(|(i, r)| r.unwrap_or_else(|| placeholder(FileId(i as u32), None)))
+        .collect()
+}
+
+/// For each file, the index of an earlier file with the same bytes, if any (by length,
+/// then by a fingerprint of the bytes; `read_and_lower` compares the bytes themselves).
+fn first_copies(files: &[walk::SourcePath]) -> Vec<Option<usize>> {
+    use std::collections::HashMap;
+    use std::hash::{Hash, Hasher};
+    let lengths: Vec<Option<u64>> = files
+        .par_iter()
+        .map(|f| std::fs::metadata(&f.absolute).ok().map(|m| m.len()))
+        .collect();
+    let mut by_length: HashMap<u64, usize> = HashMap::new();
+    for len in lengths.iter().flatten() {
+        *by_length.entry(*len).or_default() += 1;
+    }
+    let shared_length =
+        |len: &Option<u64>| matches!(len, Some(n) if *n >= SHARED_MIN_BYTES && by_length[n] > 1);
+    let prints: Vec<Option<(u64, u64)>> = files
+        .par_iter()
+        .zip(&lengths)
+        .map(|(f, len)| {
+            if !shared_length(len) {
+                return None;
+            }
+            let bytes = std::fs::read(&f.absolute).ok()?;
+            let mut hasher = std::collections::hash_map::DefaultHasher::new();
+            bytes.hash(&mut hasher);
+            Some((bytes.len() as u64, hasher.finish()))
+        })
+        .collect();
+    let mut first: HashMap<(u64, u64), usize> = HashMap::new();
+    prints
+        .iter()
+        .enumerate()
+        .map(|(i, p)| {
+            let p = (*p)?;
+            match first.get(&p) {
+                Some(&f) => Some(f),
+                None => {
+                    first.insert(p, i);
+                    None
+                }
+            }
+        })
+        .collect()
+}
+
+/// A file that yields no IR: why, when it is an error.
+fn placeholder(id: FileId, error: Option<String>) -> Read {
+    (
+        FileIr {
+            file: id,
+            ..FileIr::default()
+        },
+        error,
+        None,
+    )
+}
+
+/// One file read and lowered; its bytes too, when it could be read.
+fn read_one(
+    id: FileId,
+    source: &walk::SourcePath,
+    options: &ScanOptions,
+) -> (Read, Option<Vec<u8>>) {
+    match std::fs::read(&source.absolute) {
+        Ok(bytes) => {
+            let read = read_bytes(id, source, &bytes, options);
+            (read, Some(bytes))
+        }
+        Err(e) => (placeholder(id, Some(format!("cannot be read: {e}"))), None),
+    }
+}
+
+fn read_bytes(id: FileId, source: &walk::SourcePath, bytes: &[u8], options: &ScanOptions) -> Read {
+    // A file named on the command line that holds NUL bytes is not C text.
+    if source.named && bytes.contains(&0) {
+        return placeholder(
+            id,
+            Some("holds NUL bytes: not C source text; not read".to_string()),
+        );
+    }
+    let (ir, entry) = lower(id, bytes, options.cache.as_ref());
+    (ir, None, entry)
 }
 
 /// Parses and analyses sources held in memory (name, bytes), as `run` does files: for
