@@ -466,6 +466,28 @@ fn print_notes(scan: &scan::Scan) {
     }
 }
 
+/// Writes what `write` makes to the output file (whole or not at all) or standard output,
+/// as it is made: for output too large to hold as one string (a large tree's JSON).
+fn emit_with(
+    output: &Option<PathBuf>,
+    write: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+) -> Result<()> {
+    match output {
+        Some(path) => report::write_atomically_with(path, write)
+            .with_context(|| format!("cannot write {}", path.display())),
+        None => {
+            use std::io::Write;
+            let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+            match write(&mut out).and_then(|_| out.flush()) {
+                Ok(()) => Ok(()),
+                // A closed pipe (`| head`) is the reader's choice, not an error.
+                Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+                Err(e) => Err(e).context("cannot write to standard output"),
+            }
+        }
+    }
+}
+
 fn emit(text: &str, output: &Option<PathBuf>) -> Result<()> {
     match output {
         Some(path) => report::write_atomically(path, text.as_bytes())
@@ -527,11 +549,12 @@ fn run(cli: Cli) -> Result<Status> {
                 eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
                 return Ok(Status::ToolError);
             }
-            let text = match format {
-                ListFormat::Table => report::table::render(&result),
-                ListFormat::Json => report::json::render(&result, &root_label),
-            };
-            emit(&text, &output)?;
+            match format {
+                ListFormat::Table => emit(&report::table::render(&result), &output)?,
+                ListFormat::Json => {
+                    emit_with(&output, |w| report::json::write(w, &result, &root_label))?
+                }
+            }
             if result.incomplete {
                 eprintln!("tauscan: error: the scan is incomplete (see the notes above)");
                 return Ok(Status::ToolError);
@@ -735,13 +758,18 @@ fn check(
             report::sarif::render(&result, &checked, &spec, relative_spec.as_deref())
         }
         Format::Json => {
+            // Written as it is made: a large tree's JSON is never held as one string.
             let root_label = result.root.to_string_lossy().replace('\\', "/");
-            report::json::render_with_findings(
-                &result,
-                &root_label,
-                &checked.findings,
-                spec_name.as_deref(),
-            )
+            emit_with(output, |w| {
+                report::json::write_with_findings(
+                    w,
+                    &result,
+                    &root_label,
+                    &checked.findings,
+                    spec_name.as_deref(),
+                )
+            })?;
+            String::new()
         }
         Format::Table => {
             let root = result.root.clone();
@@ -767,7 +795,9 @@ fn check(
             text
         }
     };
-    emit(&text, output)?;
+    if !matches!(format, Format::Json) {
+        emit(&text, output)?;
+    }
     let incomplete = result.incomplete;
     // The process ends next: leave the program's tables to the operating system rather
     // than freeing them one by one.

@@ -480,6 +480,28 @@ pub fn render_with_findings(
     findings: &[crate::rules::Finding],
     spec_file: Option<&str>,
 ) -> String {
+    let mut text = Vec::new();
+    // Writing to memory fails only as serialising does (never: plain structs of strings
+    // and finite numbers); should it ever, the output says so rather than being empty.
+    match write_with_findings(&mut text, scan, root_label, findings, spec_file) {
+        Ok(()) => String::from_utf8(text).unwrap_or_default(),
+        Err(e) => format!("{{\"schema\": {SCHEMA}, \"error\": \"{e}\"}}\n"),
+    }
+}
+
+/// `render` written to `out` as it is made (a large scan's JSON is never one string).
+pub fn write(out: &mut dyn std::io::Write, scan: &Scan, root_label: &str) -> std::io::Result<()> {
+    write_with_findings(out, scan, root_label, &[], None)
+}
+
+/// `render_with_findings` written to `out` as it is made.
+pub fn write_with_findings(
+    out: &mut dyn std::io::Write,
+    scan: &Scan,
+    root_label: &str,
+    findings: &[crate::rules::Finding],
+    spec_file: Option<&str>,
+) -> std::io::Result<()> {
     let program = &scan.program;
     let smoothers = &scan.recognition.smoothers;
     let all_ids = scan.ids();
@@ -542,12 +564,8 @@ pub fn render_with_findings(
             })
             .collect(),
     };
-    // Serialising plain structs of strings and finite numbers cannot fail; should it ever,
-    // the output says so rather than being empty.
-    let mut text = serde_json::to_string_pretty(&doc)
-        .unwrap_or_else(|e| format!("{{\"schema\": {SCHEMA}, \"error\": \"{e}\"}}"));
-    text.push('\n');
-    text
+    serde_json::to_writer_pretty(&mut *out, &doc)?;
+    out.write_all(b"\n")
 }
 
 /// The rate the coefficient was designed for: its derivation's, kept aside when the spec

@@ -64,6 +64,15 @@ pub fn finding_details(
 /// Writes `contents` to `path` through a temporary file in the same folder and a rename,
 /// so that a reader never sees a half-written file.
 pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {
+    write_atomically_with(path, |w| w.write_all(contents))
+}
+
+/// As `write_atomically`, with the contents written by `write` (buffered): output too
+/// large to hold as one string goes to the file as it is made.
+pub fn write_atomically_with(
+    path: &Path,
+    write: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> std::io::Result<()> {
     let folder = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
@@ -81,8 +90,9 @@ pub fn write_atomically(path: &Path, contents: &[u8]) -> std::io::Result<()> {
         std::process::id()
     ));
     let result = (|| {
-        let mut file = std::fs::File::create(&temporary)?;
-        file.write_all(contents)?;
+        let mut file = std::io::BufWriter::new(std::fs::File::create(&temporary)?);
+        write(&mut file)?;
+        let file = file.into_inner().map_err(|e| e.into_error())?;
         file.sync_all()?;
         std::fs::rename(&temporary, path)
     })();
