@@ -192,6 +192,22 @@ impl Graph {
     }
 
     pub fn type_id(&mut self, ty: &CType) -> TypeId {
+        // A type without an array is equal to another exactly when their texts are (no
+        // float in it), and a graph holds few: found by comparison, without the text.
+        fn has_array(ty: &CType) -> bool {
+            match ty {
+                CType::Array(..) => true,
+                CType::Pointer(inner) => has_array(inner),
+                _ => false,
+            }
+        }
+        if !has_array(ty) {
+            if let Some(i) = self.types.iter().position(|t| t == ty) {
+                return TypeId(i as u32);
+            }
+            self.types.push(ty.clone());
+            return TypeId(self.types.len() as u32 - 1);
+        }
         let key = format!("{ty:?}");
         if let Some(t) = self.type_index.get(&key) {
             return *t;
