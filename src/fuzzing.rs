@@ -32,7 +32,7 @@ fn evaluate_all(data: &[u8]) {
         None => ("", text.as_ref()),
     };
     let parsed = crate::parse::parse_file(FileId(0), definitions.as_bytes());
-    let mut names: Vec<String> = parsed.macros.iter().map(|m| m.name.clone()).collect();
+    let mut names: Vec<String> = parsed.macros.iter().map(|m| m.name.to_string()).collect();
     names.extend(parsed.globals.iter().map(|g| g.decl.name.clone()));
     let mut exprs = Vec::new();
     if let Some(e) = crate::parse::parse_expression(expression, Span::default()) {

@@ -735,10 +735,13 @@ impl fmt::Display for Condition {
 
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct MacroDef {
-    pub name: String,
+    /// Name and body are shared text: a vendor's headers copied per board define the same
+    /// names to the same values hundreds of thousands of times (`Program::build` makes
+    /// equal texts one).
+    pub name: std::sync::Arc<str>,
     /// None for object-like macros.
     pub params: Option<Vec<String>>,
-    pub body: String,
+    pub body: std::sync::Arc<str>,
     pub span: Span,
     pub condition: Condition,
 }
@@ -810,6 +813,37 @@ impl FileIr {
         }
         for i in &mut self.includes {
             share(&mut last, &mut i.condition);
+        }
+    }
+
+    /// For the IR of a copy of `first`'s bytes: the macros' names, bodies and conditions
+    /// and the other definitions' conditions become `first`'s own shared values (each is
+    /// compared first), so that a header copied into every board's folder costs its
+    /// definitions' records, not their texts again.
+    pub fn share_with(&mut self, first: &FileIr) {
+        fn condition(c: &mut Condition, f: &Condition) {
+            if c.levels == f.levels {
+                c.levels = f.levels.clone();
+            }
+        }
+        fn text(t: &mut std::sync::Arc<str>, f: &std::sync::Arc<str>) {
+            if t == f {
+                *t = f.clone();
+            }
+        }
+        for (m, f) in self.macros.iter_mut().zip(&first.macros) {
+            text(&mut m.name, &f.name);
+            text(&mut m.body, &f.body);
+            condition(&mut m.condition, &f.condition);
+        }
+        for (g, f) in self.globals.iter_mut().zip(&first.globals) {
+            condition(&mut g.condition, &f.condition);
+        }
+        for (g, f) in self.functions.iter_mut().zip(&first.functions) {
+            condition(&mut g.condition, &f.condition);
+        }
+        for (g, f) in self.includes.iter_mut().zip(&first.includes) {
+            condition(&mut g.condition, &f.condition);
         }
     }
 }

@@ -344,7 +344,10 @@ fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read
                             }
                             let mut ir: FileIr =
                                 crate::ir::with_file_id(id, || postcard::from_bytes(ir).ok())?;
-                            ir.share_conditions();
+                            match out.first() {
+                                Some((_, (first_ir, _, _))) => ir.share_with(first_ir),
+                                None => ir.share_conditions(),
+                            }
                             Some(ir)
                         });
                         match decoded {
@@ -587,5 +590,31 @@ mod tests {
         assert!(glob_match("*.h", "vent.h"));
         assert!(!glob_match("*.h", "inc/vent.h"));
         assert!(glob_match("src/?ent.c", "src/vent.c"));
+    }
+
+    /// A copy's IR takes the first file's texts and conditions (the same allocations),
+    /// and means exactly what it meant before.
+    #[test]
+    fn a_copy_shares_the_first_files_texts_and_conditions() {
+        use crate::ir::FileId;
+        use std::sync::Arc;
+        let src = b"#ifdef KILN_FAST\n#define KILN_K 0.25f\n#define KILN_SHIFT 3\n#endif\n\
+                    #include \"kiln.h\"\nstatic int t;\nvoid kiln_step(int x) { t += (x - t) >> 3; }\n";
+        let first = crate::parse::parse_file(FileId(0), src);
+        let mut copy = crate::parse::parse_file(FileId(1), src);
+        let before = postcard::to_stdvec(&copy).ok();
+        assert!(!Arc::ptr_eq(&copy.macros[0].name, &first.macros[0].name));
+        copy.share_with(&first);
+        assert_eq!(postcard::to_stdvec(&copy).ok(), before);
+        assert_eq!(copy.macros.len(), 2);
+        for (m, f) in copy.macros.iter().zip(&first.macros) {
+            assert!(Arc::ptr_eq(&m.name, &f.name) && Arc::ptr_eq(&m.body, &f.body));
+            assert!(Arc::ptr_eq(&m.condition.levels, &f.condition.levels));
+        }
+        assert!(Arc::ptr_eq(
+            &copy.functions[0].condition.levels,
+            &first.functions[0].condition.levels
+        ));
+        assert_eq!(copy.macros[0].span.file, FileId(1));
     }
 }

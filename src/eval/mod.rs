@@ -438,7 +438,7 @@ impl<'p> Evaluator<'p> {
         // The active definition's body is parsed once per program; an override (another
         // preprocessor branch, for variants) is parsed here.
         let chosen: Option<(MacroDef, Option<Expr>)> = match &self.macro_override {
-            Some(m) if m.name == name => {
+            Some(m) if *m.name == *name => {
                 Some((m.clone(), crate::parse::parse_expression(&m.body, m.span)))
             }
             _ => self

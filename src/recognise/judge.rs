@@ -781,7 +781,7 @@ fn build(
     let function_name = function
         .map(|f| program.function(f).name.clone())
         .unwrap_or_default();
-    let macro_name = c.macro_ref.map(|r| program.macro_def(r).name.clone());
+    let macro_name = c.macro_ref.map(|r| program.macro_def(r).name.to_string());
     let state_text = g.display(c.state, 200);
     Smoother {
         function: function_name,
@@ -848,7 +848,7 @@ fn build_plain(
             .map(|f| program.function(f).name.clone())
             .unwrap_or_default(),
         function_ref: function,
-        macro_name: c.macro_ref.map(|r| program.macro_def(r).name.clone()),
+        macro_name: c.macro_ref.map(|r| program.macro_def(r).name.to_string()),
         state: state_text.clone(),
         span: c.span,
         definition: c.definition,

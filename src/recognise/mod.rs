@@ -517,7 +517,7 @@ fn macro_definition(
         .into_iter()
         .filter_map(|i| judge::judge(program, &w, i, options))
         .map(|mut s| {
-            s.macro_name = Some(def.name.clone());
+            s.macro_name = Some(def.name.to_string());
             s.span = def.span;
             s.definition = None;
             s
