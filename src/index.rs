@@ -10,6 +10,7 @@
 
 use crate::eval::num::Target;
 use crate::ir::*;
+use once_cell::race::OnceBox;
 use std::collections::{BTreeMap, HashMap, HashSet};
 
 mod ppexpr;
@@ -59,14 +60,10 @@ pub struct ProgramOptions {
 
 /// Per macro, by position: no keys to store and no hashing on the hot path (a vendor's
 /// device headers define hundreds of thousands of macros).
-fn macro_cells<T>(files: &[FileIr]) -> Vec<Vec<std::sync::OnceLock<T>>> {
+fn macro_cells<T>(files: &[FileIr]) -> Vec<Vec<OnceBox<T>>> {
     files
         .iter()
-        .map(|f| {
-            (0..f.macros.len())
-                .map(|_| std::sync::OnceLock::new())
-                .collect()
-        })
+        .map(|f| (0..f.macros.len()).map(|_| OnceBox::new()).collect())
         .collect()
 }
 
@@ -122,12 +119,12 @@ pub struct Program {
     pub paths: Vec<String>,
     #[serde(skip)]
     pub options: ProgramOptions,
-    macros: HashMap<String, Vec<(usize, usize)>>,
+    macros: HashMap<std::sync::Arc<str>, Vec<(usize, usize)>>,
     /// Whether each macro's `#if` branch is built, by file and index within the file.
     macro_active: Vec<Vec<bool>>,
     /// Object-like macro bodies parsed as expressions, on first use.
     #[serde(skip)]
-    macro_exprs: Vec<Vec<std::sync::OnceLock<Box<Option<Expr>>>>>,
+    macro_exprs: Vec<Vec<OnceBox<Option<Expr>>>>,
     enums: HashMap<String, (usize, usize)>,
     globals: HashMap<String, Vec<(usize, usize)>>,
     /// Globals by file and name: the common lookup, kept cheap when a name recurs in
@@ -150,9 +147,9 @@ pub struct Program {
     /// Calls by the array of an `&arr[k]` argument, for init calls of array elements.
     calls_by_element_arg: HashMap<String, Vec<usize>>,
     /// Whether each macro name is defined with the active defines (computed once).
-    defined: HashMap<String, bool>,
+    defined: HashMap<std::sync::Arc<str>, bool>,
     /// What each macro name is known to be (defined, undefined, or either).
-    defined_tri: HashMap<String, Tri>,
+    defined_tri: HashMap<std::sync::Arc<str>, Tri>,
     /// For each file, each `#include`'s possible files of the scan.
     includes: Vec<Vec<Vec<usize>>>,
     /// Each file's include closure (itself and what it includes, transitively), on first use.
@@ -160,7 +157,7 @@ pub struct Program {
     closures: Vec<std::sync::OnceLock<Vec<usize>>>,
     /// Every macro body parsed as statements or an expression, on first use.
     #[serde(skip)]
-    macro_bodies: Vec<Vec<std::sync::OnceLock<Box<MacroBody>>>>,
+    macro_bodies: Vec<Vec<OnceBox<MacroBody>>>,
     /// `#if` texts already judged (three-valued).
     #[serde(skip)]
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
@@ -200,7 +197,7 @@ impl Program {
             for (i, m) in file.macros.iter().enumerate() {
                 program
                     .macros
-                    .entry(m.name.to_string())
+                    .entry(m.name.clone())
                     .or_default()
                     .push((fi, i));
             }
@@ -513,7 +510,6 @@ impl Program {
         let cell = self.macro_exprs.get(r.0)?.get(r.1)?;
         let expr = cell
             .get_or_init(|| Box::new(crate::parse::parse_expression(&m.body, m.span)))
-            .as_ref()
             .as_ref();
         Some((m, expr))
     }
@@ -780,7 +776,7 @@ impl Program {
     /// built (a header's include guard, a configuration header's `#ifndef` defaults), and
     /// what each is known to be when unknown names may come from the build.
     fn compute_definedness(&mut self) {
-        let names: Vec<String> = self.macros.keys().cloned().collect();
+        let names: Vec<std::sync::Arc<str>> = self.macros.keys().cloned().collect();
         let mut defined = HashMap::new();
         let mut tri = HashMap::new();
         // An include guard (`#ifndef X` / `#define X` around a header) is undefined where
@@ -796,7 +792,7 @@ impl Program {
                     .levels
                     .iter()
                     .any(|l| match &l.branch {
-                        CondBranch::Ifndef(n) => n == name,
+                        CondBranch::Ifndef(n) => n.as_str() == &**name,
                         CondBranch::If(text) => {
                             let t: String = text.chars().filter(|c| !c.is_whitespace()).collect();
                             t == format!("!defined({name})") || t == format!("!defined{name}")
@@ -823,7 +819,7 @@ impl Program {
         &self,
         name: &str,
         visiting: &mut Vec<String>,
-        memo: &mut HashMap<String, bool>,
+        memo: &mut HashMap<std::sync::Arc<str>, bool>,
         depth: u32,
     ) -> bool {
         if self.options.defines.contains_key(name) {
@@ -837,7 +833,7 @@ impl Program {
         if depth > 32 || visiting.iter().any(|v| v == name) {
             return false;
         }
-        let Some(refs) = self.macros.get(name) else {
+        let Some((key, refs)) = self.macros.get_key_value(name) else {
             return false;
         };
         visiting.push(name.to_string());
@@ -858,7 +854,7 @@ impl Program {
             }
         }
         visiting.pop();
-        memo.insert(name.to_string(), result);
+        memo.insert(key.clone(), result);
         result
     }
 
@@ -866,7 +862,7 @@ impl Program {
         &self,
         branch: &CondBranch,
         visiting: &mut Vec<String>,
-        memo: &mut HashMap<String, bool>,
+        memo: &mut HashMap<std::sync::Arc<str>, bool>,
         depth: u32,
     ) -> bool {
         match branch {
@@ -890,7 +886,7 @@ impl Program {
         &self,
         name: &str,
         visiting: &mut Vec<String>,
-        memo: &mut HashMap<String, Tri>,
+        memo: &mut HashMap<std::sync::Arc<str>, Tri>,
         depth: u32,
     ) -> Tri {
         if self.options.defines.contains_key(name) {
@@ -902,7 +898,7 @@ impl Program {
         if depth > 32 || visiting.iter().any(|v| v == name) {
             return Tri::False;
         }
-        let Some(refs) = self.macros.get(name) else {
+        let Some((key, refs)) = self.macros.get_key_value(name) else {
             return self.undefined_name();
         };
         visiting.push(name.to_string());
@@ -918,7 +914,7 @@ impl Program {
             }
         }
         visiting.pop();
-        memo.insert(name.to_string(), result);
+        memo.insert(key.clone(), result);
         result
     }
 
@@ -1217,7 +1213,8 @@ impl Program {
     }
 
     /// A macro's body parsed once: as one expression when it is one, else as statements
-    /// (the cell holds a box, so the table costs a pointer per macro until it is used).
+    /// (the cell is one pointer until it is used: MESC has 263 000 macros and uses a few
+    /// hundred. Two threads asking at once may both parse it; one result is kept.)
     pub fn macro_body(&self, r: MacroRef) -> &MacroBody {
         static NEITHER: MacroBody = MacroBody::Neither;
         let Some(cell) = self.macro_bodies.get(r.0).and_then(|f| f.get(r.1)) else {
