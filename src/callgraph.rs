@@ -81,7 +81,7 @@ fn function_value<'e>(program: &Program, e: &'e Expr) -> Option<&'e str> {
 fn key_of(e: &Expr) -> Option<Key> {
     match &e.kind {
         ExprKind::Field { field, .. } => Some(Key::Field(field.clone())),
-        ExprKind::Ident(name) => Some(Key::Var(name.clone())),
+        ExprKind::Ident(name) => Some(Key::Var(name.to_string())),
         ExprKind::Index { base, .. } => key_of(base),
         ExprKind::Unary {
             op: UnaryOp::Deref,

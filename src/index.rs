@@ -1323,7 +1323,7 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
         for p in &f.params {
             locals.insert(p.name.clone());
         }
-        let is_local = |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(n));
+        let is_local = |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(&**n));
         let mut top_level: HashSet<u32> = HashSet::new();
         top_level_statements(&f.body, &mut top_level);
         let first = writes.len();
@@ -1371,7 +1371,7 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
                 if let ExprKind::Ident(name) = &callee.kind {
                     calls.push(CallSite {
                         caller: fref,
-                        callee: name.clone(),
+                        callee: name.to_string(),
                         args: args.clone(),
                         span: e.span,
                     });
@@ -1735,7 +1735,7 @@ fn replace_defined_tri(text: &str, mut is_defined: impl FnMut(&str) -> Option<bo
 /// `1 || unknown` is 1, anything else that reads it is unknown (None).
 fn pp_eval_tri(expr: &Expr) -> Option<i128> {
     match &expr.kind {
-        ExprKind::Ident(name) if name == "__tauscan_unknown" => None,
+        ExprKind::Ident(name) if &**name == "__tauscan_unknown" => None,
         ExprKind::Binary {
             op: BinaryOp::And,
             lhs,
@@ -1758,7 +1758,7 @@ fn pp_eval_tri(expr: &Expr) -> Option<i128> {
         _ => {
             let mut unknown = false;
             expr.walk(&mut |e| {
-                unknown |= matches!(&e.kind, ExprKind::Ident(n) if n == "__tauscan_unknown")
+                unknown |= matches!(&e.kind, ExprKind::Ident(n) if &**n == "__tauscan_unknown")
             });
             if unknown {
                 None

@@ -209,7 +209,8 @@ pub enum ExprKind {
         value: f64,
         single: bool,
     },
-    Ident(String),
+    /// A name: shared text (the lowering makes a file's equal names one allocation).
+    Ident(std::sync::Arc<str>),
     Field {
         base: Box<Expr>,
         arrow: bool,
@@ -327,7 +328,8 @@ impl Expr {
     pub fn same_as(&self, other: &Expr) -> bool {
         use ExprKind::*;
         match (&self.kind, &other.kind) {
-            (Ident(a), Ident(b)) | (Opaque(a), Opaque(b)) => a == b,
+            (Ident(a), Ident(b)) => a == b,
+            (Opaque(a), Opaque(b)) => a == b,
             (
                 Int {
                     value: a,
@@ -816,34 +818,166 @@ impl FileIr {
         }
     }
 
-    /// For the IR of a copy of `first`'s bytes: the macros' names, bodies and conditions
-    /// and the other definitions' conditions become `first`'s own shared values (each is
-    /// compared first), so that a header copied into every board's folder costs its
-    /// definitions' records, not their texts again.
-    pub fn share_with(&mut self, first: &FileIr) {
-        fn condition(c: &mut Condition, f: &Condition) {
-            if c.levels == f.levels {
-                c.levels = f.levels.clone();
+    /// The IR as file `file`: every span (and the file's own id) moved there. A file whose
+    /// bytes equal another's takes a clone of that file's IR moved to itself, sharing its
+    /// texts and conditions.
+    pub fn move_to(&mut self, file: FileId) {
+        fn ty(t: &mut CType, file: FileId) {
+            match t {
+                CType::Pointer(inner) => ty(inner, file),
+                CType::Array(inner, size) => {
+                    ty(inner, file);
+                    if let Some(size) = size {
+                        expr(size, file);
+                    }
+                }
+                _ => {}
             }
         }
-        fn text(t: &mut std::sync::Arc<str>, f: &std::sync::Arc<str>) {
-            if t == f {
-                *t = f.clone();
+        fn expr(e: &mut Expr, file: FileId) {
+            e.span.file = file;
+            match &mut e.kind {
+                ExprKind::Field { base, .. } => expr(base, file),
+                ExprKind::Index { base, index } => {
+                    expr(base, file);
+                    expr(index, file);
+                }
+                ExprKind::Unary { arg, .. } => expr(arg, file),
+                ExprKind::Cast { ty: t, arg } => {
+                    ty(t, file);
+                    expr(arg, file);
+                }
+                ExprKind::Binary { lhs, rhs, .. } => {
+                    expr(lhs, file);
+                    expr(rhs, file);
+                }
+                ExprKind::Assign { target, value, .. } => {
+                    expr(target, file);
+                    expr(value, file);
+                }
+                ExprKind::IncDec { target, .. } => expr(target, file),
+                ExprKind::Call { callee, args } => {
+                    expr(callee, file);
+                    for a in std::sync::Arc::make_mut(args) {
+                        expr(a, file);
+                    }
+                }
+                ExprKind::Conditional {
+                    cond,
+                    then,
+                    otherwise,
+                } => {
+                    expr(cond, file);
+                    expr(then, file);
+                    expr(otherwise, file);
+                }
+                ExprKind::Comma(items) => items.iter_mut().for_each(|i| expr(i, file)),
+                ExprKind::Int { .. }
+                | ExprKind::Float { .. }
+                | ExprKind::Ident(_)
+                | ExprKind::Opaque(_) => {}
             }
         }
-        for (m, f) in self.macros.iter_mut().zip(&first.macros) {
-            text(&mut m.name, &f.name);
-            text(&mut m.body, &f.body);
-            condition(&mut m.condition, &f.condition);
+        fn init(i: &mut Initializer, file: FileId) {
+            match i {
+                Initializer::Expr(e) => expr(e, file),
+                Initializer::List(items) => items.iter_mut().for_each(|(_, i)| init(i, file)),
+            }
         }
-        for (g, f) in self.globals.iter_mut().zip(&first.globals) {
-            condition(&mut g.condition, &f.condition);
+        fn decl(d: &mut LocalDecl, file: FileId) {
+            d.span.file = file;
+            ty(&mut d.ty, file);
+            if let Some(i) = &mut d.init {
+                init(i, file);
+            }
         }
-        for (g, f) in self.functions.iter_mut().zip(&first.functions) {
-            condition(&mut g.condition, &f.condition);
+        fn stmt(s: &mut Stmt, file: FileId) {
+            match s {
+                Stmt::Expr(e) => expr(e, file),
+                Stmt::Decl(decls) => decls.iter_mut().for_each(|d| decl(d, file)),
+                Stmt::Block(items) => items.iter_mut().for_each(|s| stmt(s, file)),
+                Stmt::If {
+                    cond,
+                    then,
+                    otherwise,
+                } => {
+                    expr(cond, file);
+                    stmt(then, file);
+                    if let Some(o) = otherwise {
+                        stmt(o, file);
+                    }
+                }
+                Stmt::Loop {
+                    init,
+                    cond,
+                    step,
+                    body,
+                    span,
+                } => {
+                    span.file = file;
+                    init.iter_mut().for_each(|s| stmt(s, file));
+                    if let Some(c) = cond {
+                        expr(c, file);
+                    }
+                    if let Some(s) = step {
+                        expr(s, file);
+                    }
+                    stmt(body, file);
+                }
+                Stmt::Switch { scrutinee, body } => {
+                    expr(scrutinee, file);
+                    stmt(body, file);
+                }
+                Stmt::Return(e, span) => {
+                    span.file = file;
+                    if let Some(e) = e {
+                        expr(e, file);
+                    }
+                }
+                Stmt::Conditional(branches) => {
+                    for (_, body) in branches {
+                        body.iter_mut().for_each(|s| stmt(s, file));
+                    }
+                }
+                Stmt::Other(span) => span.file = file,
+            }
         }
-        for (g, f) in self.includes.iter_mut().zip(&first.includes) {
-            condition(&mut g.condition, &f.condition);
+        self.file = file;
+        for m in &mut self.macros {
+            m.span.file = file;
+        }
+        for g in &mut self.globals {
+            decl(&mut g.decl, file);
+        }
+        for f in &mut self.functions {
+            f.span.file = file;
+            f.name_span.file = file;
+            for p in &mut f.params {
+                ty(&mut p.ty, file);
+            }
+            ty(&mut f.returns, file);
+            f.body.iter_mut().for_each(|s| stmt(s, file));
+        }
+        for s in &mut self.structs {
+            s.span.file = file;
+            for p in &mut s.fields {
+                ty(&mut p.ty, file);
+            }
+        }
+        for e in &mut self.enums {
+            e.span.file = file;
+            if let Some(v) = &mut e.value {
+                expr(v, file);
+            }
+        }
+        for (_, t) in &mut self.typedefs {
+            ty(t, file);
+        }
+        for p in &mut self.problems {
+            p.span.file = file;
+        }
+        for (_, t) in &mut self.prototypes {
+            ty(t, file);
         }
     }
 }

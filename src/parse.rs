@@ -1074,6 +1074,7 @@ pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
         nesting: 0,
         too_deep: None,
         recovered: 0,
+        names: std::collections::HashSet::new(),
     };
     let root = tree.root_node();
     lower.top_items(root, &Condition::default());
@@ -1166,6 +1167,7 @@ fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
         nesting: 0,
         too_deep: None,
         recovered: 0,
+        names: std::collections::HashSet::new(),
     };
     lower.top_items(tree.root_node(), &Condition::default());
     if lower.errors > 0 || lower.too_deep.is_some() {
@@ -1307,6 +1309,8 @@ struct Lower<'a> {
     too_deep: Option<Span>,
     /// Functions read again on their own after the file's tree lost them.
     recovered: u32,
+    /// The file's names so far: each name's text is allocated once per file.
+    names: std::collections::HashSet<std::sync::Arc<str>>,
 }
 
 fn named_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
@@ -1326,6 +1330,21 @@ impl Lower<'_> {
             .get(node.start_byte()..node.end_byte())
             .unwrap_or(&[]);
         String::from_utf8_lossy(bytes).into_owned()
+    }
+
+    /// A node's text as a shared name: the file's earlier allocation of the same text.
+    fn name(&mut self, node: Node) -> std::sync::Arc<str> {
+        let bytes = self
+            .src
+            .get(node.start_byte()..node.end_byte())
+            .unwrap_or(&[]);
+        let text = String::from_utf8_lossy(bytes);
+        if let Some(name) = self.names.get(&*text) {
+            return name.clone();
+        }
+        let name: std::sync::Arc<str> = text.into();
+        self.names.insert(name.clone());
+        name
     }
 
     fn span(&self, node: Node) -> Span {
@@ -2101,7 +2120,7 @@ impl Lower<'_> {
         }
         let child = |field: usize| field_child(node, field);
         let kind = match node.kind() {
-            kind::IDENTIFIER => ExprKind::Ident(self.text(node)),
+            kind::IDENTIFIER => ExprKind::Ident(self.name(node)),
             kind::NUMBER_LITERAL => {
                 let text = self.text(node);
                 // The grammar folds a leading sign into the literal in some places;

@@ -1177,12 +1177,12 @@ impl<'p> Evaluator<'p> {
                     if let Some(op) = op {
                         let old = scope
                             .values
-                            .get(name)
+                            .get(&**name)
                             .copied()
                             .ok_or_else(|| Unknown::new("helper reads an unset local"))?;
                         v = num::binary(*op, old, v, self.target())?.value;
                     }
-                    scope.values.insert(name.clone(), v);
+                    scope.values.insert(name.to_string(), v);
                 }
                 Stmt::Return(Some(e), _) => return Ok(Some(self.eval(e, scope)?)),
                 Stmt::Block(inner) => {

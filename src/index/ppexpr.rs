@@ -283,7 +283,7 @@ impl Parser {
                 unsigned,
                 long,
             })),
-            Token::Unknown => Some(node(ExprKind::Ident(UNKNOWN.to_string()))),
+            Token::Unknown => Some(node(ExprKind::Ident(UNKNOWN.into()))),
             Token::Open => {
                 let start = self.at;
                 let inner = self.conditional()?;

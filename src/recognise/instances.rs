@@ -170,7 +170,11 @@ pub fn passes_own_parameter(program: &Program, caller: FuncRef, arg: &Expr) -> b
         match &e.kind {
             ExprKind::Cast { arg, .. } => e = arg,
             ExprKind::Ident(n) => {
-                return program.function(caller).params.iter().any(|p| &p.name == n)
+                return program
+                    .function(caller)
+                    .params
+                    .iter()
+                    .any(|p| *p.name == **n)
             }
             _ => return false,
         }

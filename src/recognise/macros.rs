@@ -50,7 +50,7 @@ pub fn instantiate(
         else {
             return None;
         };
-        let i = params.iter().position(|p| p == name)?;
+        let i = params.iter().position(|p| **p == **name)?;
         let given = args.get(i)?;
         if let ExprKind::Ident(t) = &given.kind {
             if program.is_type_name(t) {
@@ -76,7 +76,7 @@ pub fn instantiate(
         Some(Expr::new(
             ExprKind::Binary {
                 op,
-                lhs: Box::new(Expr::new(ExprKind::Ident(name.clone()), e.span)),
+                lhs: Box::new(Expr::new(ExprKind::Ident(name.as_str().into()), e.span)),
                 rhs: inner.clone(),
             },
             e.span,
@@ -86,7 +86,7 @@ pub fn instantiate(
         let ExprKind::Ident(name) = &e.kind else {
             return None;
         };
-        let i = params.iter().position(|p| p == name)?;
+        let i = params.iter().position(|p| **p == **name)?;
         let mut arg = args.get(i)?.clone();
         crate::parse::relocate_expr(&mut arg, anchor);
         Some(arg)

@@ -1021,12 +1021,12 @@ impl Graph {
             },
             Node::Name { name, .. }
             | Node::LocalObject { name, .. }
-            | Node::Opaque { name, .. } => ExprKind::Ident(self.name(name).to_string()),
+            | Node::Opaque { name, .. } => ExprKind::Ident(self.name(name).into()),
             Node::Local { name, value, .. } => {
                 if expand {
                     return sub(value).map(|b| *b);
                 }
-                ExprKind::Ident(self.name(name).to_string())
+                ExprKind::Ident(self.name(name).into())
             }
             Node::Stored { value, .. } => return sub(value).map(|b| *b),
             Node::Version { place, .. } => return sub(place).map(|b| *b),
@@ -1063,10 +1063,7 @@ impl Graph {
                     out.push(*sub(*a)?);
                 }
                 ExprKind::Call {
-                    callee: Box::new(Expr::new(
-                        ExprKind::Ident(self.name(callee).to_string()),
-                        span,
-                    )),
+                    callee: Box::new(Expr::new(ExprKind::Ident(self.name(callee).into()), span)),
                     args: std::sync::Arc::new(out),
                 }
             }

@@ -955,7 +955,7 @@ impl<'a> Walker<'a> {
                 kind: ExprKind::Assign { target, .. },
                 ..
             }) => match &target.kind {
-                ExprKind::Ident(n) => n.clone(),
+                ExprKind::Ident(n) => n.to_string(),
                 _ => return None,
             },
             _ => return None,
@@ -975,7 +975,7 @@ impl<'a> Walker<'a> {
                 ..
             }
         );
-        if !matches!(&lhs.kind, ExprKind::Ident(n) if *n == var) {
+        if !matches!(&lhs.kind, ExprKind::Ident(n) if **n == *var) {
             return None;
         }
         let single = match body {
@@ -1007,7 +1007,7 @@ impl<'a> Walker<'a> {
         let ExprKind::Ident(acc) = &target.kind else {
             return None;
         };
-        if !matches!(&index.kind, ExprKind::Ident(n) if *n == var) || !self.is_env_local(acc) {
+        if !matches!(&index.kind, ExprKind::Ident(n) if **n == *var) || !self.is_env_local(acc) {
             return None;
         }
         let buffer = match self.place(base) {
@@ -2132,7 +2132,7 @@ fn loop_counter<'e>(
                 },
             ..
         }) => match &target.kind {
-            ExprKind::Ident(n) => (n.clone(), &**value),
+            ExprKind::Ident(n) => (n.to_string(), &**value),
             _ => return None,
         },
         _ => return None,
@@ -2145,20 +2145,20 @@ fn loop_counter<'e>(
         BinaryOp::Le => true,
         _ => return None,
     };
-    if !matches!(&lhs.kind, ExprKind::Ident(n) if *n == name) {
+    if !matches!(&lhs.kind, ExprKind::Ident(n) if **n == *name) {
         return None;
     }
     let steps_by_one = match &step?.kind {
         ExprKind::IncDec {
             target,
             increment: true,
-        } => matches!(&target.kind, ExprKind::Ident(n) if *n == name),
+        } => matches!(&target.kind, ExprKind::Ident(n) if **n == *name),
         ExprKind::Assign {
             op: Some(BinaryOp::Add),
             target,
             value,
         } => {
-            matches!(&target.kind, ExprKind::Ident(n) if *n == name)
+            matches!(&target.kind, ExprKind::Ident(n) if **n == *name)
                 && matches!(value.kind, ExprKind::Int { value: 1, .. })
         }
         _ => false,
@@ -2171,7 +2171,7 @@ fn mentions_ident(e: &Expr, name: &str) -> bool {
     let mut found = false;
     e.walk(&mut |x| {
         if let ExprKind::Ident(n) = &x.kind {
-            found |= n == name;
+            found |= &**n == name;
         }
     });
     found
@@ -2216,8 +2216,8 @@ fn assigned_in_one(e: &Expr, out: &mut Vec<String>) {
         _ => return,
     };
     if let ExprKind::Ident(n) = &target.kind {
-        if !out.contains(n) && out.len() < 4096 {
-            out.push(n.clone());
+        if !out.iter().any(|o| **o == **n) && out.len() < 4096 {
+            out.push(n.to_string());
         }
     }
 }

@@ -271,7 +271,7 @@ fn chain_truncations(program: &Program, s: &Smoother) -> (Vec<Truncation>, Vec<T
         let mut names = Vec::new();
         expr.walk(&mut |e| {
             if let ExprKind::Ident(n) = &e.kind {
-                names.push(n.clone());
+                names.push(n.to_string());
             }
         });
         wrong.push((
@@ -329,8 +329,9 @@ fn update_truncations(program: &Program, s: &Smoother) -> Vec<Truncation> {
     let mut names: Vec<String> = Vec::new();
     update.walk(&mut |e| {
         if let ExprKind::Ident(n) = &e.kind {
-            if !places.contains(n) && !names.contains(n) {
-                names.push(n.clone());
+            let n = n.to_string();
+            if !places.contains(&n) && !names.contains(&n) {
+                names.push(n);
             }
         }
     });
