@@ -80,7 +80,7 @@ fn function_value<'e>(program: &Program, e: &'e Expr) -> Option<&'e str> {
 /// The key of a place a pointer is stored in or read from.
 fn key_of(e: &Expr) -> Option<Key> {
     match &e.kind {
-        ExprKind::Field { field, .. } => Some(Key::Field(field.clone())),
+        ExprKind::Field { field, .. } => Some(Key::Field(field.to_string())),
         ExprKind::Ident(name) => Some(Key::Var(name.to_string())),
         ExprKind::Index { base, .. } => key_of(base),
         ExprKind::Unary {

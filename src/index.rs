@@ -40,7 +40,8 @@ pub struct Write {
 #[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct CallSite {
     pub caller: FuncRef,
-    pub callee: String,
+    /// The name called, shared with the IR's.
+    pub callee: std::sync::Arc<str>,
     /// The call's arguments, shared with the IR's call expression.
     pub args: std::sync::Arc<Vec<Expr>>,
     pub span: Span,
@@ -139,7 +140,7 @@ pub struct Program {
     /// as `state` recur in many files.
     writes_by_file_target: HashMap<(usize, String), Vec<usize>>,
     calls: Vec<CallSite>,
-    calls_by_callee: HashMap<String, Vec<usize>>,
+    calls_by_callee: HashMap<std::sync::Arc<str>, Vec<usize>>,
     /// Calls by the function they are made in, in file order.
     calls_by_caller: HashMap<FuncRef, Vec<usize>>,
     /// Calls by the text of an address-of argument (`&g_oven`), for init functions.
@@ -305,14 +306,14 @@ impl Program {
             && self.writes.iter().all(|w| function_at(&w.function))
             && self.calls.iter().all(|c| function_at(&c.caller))
             && self.calls_by_caller.keys().all(function_at)
+            && self.calls_by_callee.values().flatten().all(|&i| i < calls)
             && [
                 &self.writes_by_target,
-                &self.calls_by_callee,
                 &self.calls_by_address_arg,
                 &self.calls_by_element_arg,
             ]
             .iter()
-            .zip([writes, calls, calls, calls])
+            .zip([writes, calls, calls])
             .all(|(table, len)| table.values().flatten().all(|&i| i < len))
             && self
                 .writes_by_file_target
@@ -1371,7 +1372,7 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
                 if let ExprKind::Ident(name) = &callee.kind {
                     calls.push(CallSite {
                         caller: fref,
-                        callee: name.to_string(),
+                        callee: name.clone(),
                         args: args.clone(),
                         span: e.span,
                     });

@@ -214,7 +214,8 @@ pub enum ExprKind {
     Field {
         base: Box<Expr>,
         arrow: bool,
-        field: String,
+        /// Shared text, as names are.
+        field: std::sync::Arc<str>,
     },
     Index {
         base: Box<Expr>,

@@ -2280,7 +2280,7 @@ impl Lower<'_> {
                     (Some(base), Some(field)) => ExprKind::Field {
                         base: Box::new(self.expr(base, depth + 1)),
                         arrow,
-                        field: self.text(field),
+                        field: self.name(field),
                     },
                     _ => ExprKind::Opaque(self.text(node)),
                 }

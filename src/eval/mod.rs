@@ -653,7 +653,7 @@ impl<'p> Evaluator<'p> {
                 base,
                 arrow: false,
                 field,
-            } => (&**base, Some(field.as_str())),
+            } => (&**base, Some(&**field)),
             _ => (expr, None),
         };
         let ExprKind::Index { base, index } = &indexed.kind else {
@@ -1404,7 +1404,7 @@ pub fn place_type(program: &Program, function: Option<FuncRef>, expr: &Expr) -> 
                 };
             }
             let fields = program.struct_fields(&base_ty)?;
-            fields.iter().find(|f| &f.name == field)?.ty.clone()
+            fields.iter().find(|f| *f.name == **field)?.ty.clone()
         }
         ExprKind::Index { base, .. } => {
             match program.resolve_type(&place_type(program, function, base)?) {

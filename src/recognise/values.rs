@@ -1033,7 +1033,7 @@ impl Graph {
             Node::Field { base, arrow, field } => ExprKind::Field {
                 base: sub(base)?,
                 arrow,
-                field: self.name(field).to_string(),
+                field: self.name(field).into(),
             },
             Node::Index { base, index } => ExprKind::Index {
                 base: sub(base)?,
