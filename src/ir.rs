@@ -18,14 +18,47 @@ pub struct FileId(pub u32);
 
 thread_local! {
     static LOADING_AS: std::cell::Cell<Option<u32>> = const { std::cell::Cell::new(None) };
+    /// The names read so far while a file is loaded, so that each is allocated once, as
+    /// the lowering does.
+    static LOADING_NAMES: std::cell::RefCell<Option<std::collections::HashSet<std::sync::Arc<str>>>> =
+        const { std::cell::RefCell::new(None) };
 }
 
-/// Runs `load` with every `FileId` it deserialises replaced by `file`.
+/// Runs `load` with every `FileId` it deserialises replaced by `file`, and equal names
+/// deserialised as one shared text.
 pub fn with_file_id<T>(file: FileId, load: impl FnOnce() -> T) -> T {
     let before = LOADING_AS.with(|c| c.replace(Some(file.0)));
+    let names_before = LOADING_NAMES.with(|n| n.replace(Some(Default::default())));
     let out = load();
     LOADING_AS.with(|c| c.set(before));
+    LOADING_NAMES.with(|n| n.replace(names_before));
     out
+}
+
+/// Deserialises a name as shared text: inside `with_file_id`, the load's earlier
+/// allocation of the same text.
+fn shared_name<'de, D: serde::Deserializer<'de>>(d: D) -> Result<std::sync::Arc<str>, D::Error> {
+    struct Name;
+    impl serde::de::Visitor<'_> for Name {
+        type Value = std::sync::Arc<str>;
+        fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+            f.write_str("a name")
+        }
+        fn visit_str<E: serde::de::Error>(self, text: &str) -> Result<Self::Value, E> {
+            Ok(LOADING_NAMES.with(|n| match n.borrow_mut().as_mut() {
+                Some(names) => match names.get(text) {
+                    Some(name) => name.clone(),
+                    None => {
+                        let name: std::sync::Arc<str> = text.into();
+                        names.insert(name.clone());
+                        name
+                    }
+                },
+                None => text.into(),
+            }))
+        }
+    }
+    d.deserialize_str(Name)
 }
 
 impl<'de> serde::Deserialize<'de> for FileId {
@@ -210,11 +243,12 @@ pub enum ExprKind {
         single: bool,
     },
     /// A name: shared text (the lowering makes a file's equal names one allocation).
-    Ident(std::sync::Arc<str>),
+    Ident(#[serde(deserialize_with = "shared_name")] std::sync::Arc<str>),
     Field {
         base: Box<Expr>,
         arrow: bool,
         /// Shared text, as names are.
+        #[serde(deserialize_with = "shared_name")]
         field: std::sync::Arc<str>,
     },
     Index {
