@@ -71,7 +71,7 @@ fn lower(id: FileId, bytes: &[u8], cache: Option<&Cache>) -> (FileIr, Option<Ent
 /// A file's IR, copied once its syntax tree is freed. The lowering allocates the IR
 /// between the tree's nodes, so freeing the tree leaves holes around IR that is kept to
 /// the end; the copy fills such holes instead (measured: MESC's peak 293 -> 282 MB, the
-/// generated 1M-line tree's 741 -> 673 MB, at no time the benchmark can see).
+/// generated 1M-line tree's 741 -> 673 MB, at a cost within the benchmark's noise).
 fn parse_packed(id: FileId, bytes: &[u8]) -> FileIr {
     let lowered = crate::parse::parse_file(id, bytes);
     lowered.clone()
@@ -288,8 +288,8 @@ const SHARED_MIN_BYTES: u64 = 4096;
 
 /// Reads and lowers every file, in parallel and in walk order. A file whose bytes are
 /// exactly another's (a vendor's headers copied per board) is not parsed again: it gets
-/// the first copy's IR under its own `FileId` (the lowering reads nothing but the bytes,
-/// as the per-file cache also relies on).
+/// a clone of the first copy's IR moved to its own `FileId` (`FileIr::move_to`; the
+/// lowering reads nothing but the bytes, as the per-file cache also relies on).
 fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read> {
     let progress = |n: usize| {
         if let Some(p) = &options.progress {
@@ -297,7 +297,7 @@ fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read
         }
     };
     // Each group is a file and the later files that may hold its bytes, read by one
-    // worker in turn, so that only one file's bytes and encoded IR wait for its copies.
+    // worker in turn, so that only one file's bytes wait for its copies.
     let mut groups: Vec<Vec<usize>> = Vec::with_capacity(files.len());
     let mut group_of: Vec<usize> = Vec::with_capacity(files.len());
     for (i, first) in first_copies(files).into_iter().enumerate() {
@@ -340,7 +340,7 @@ fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read
                         let same = shared.as_ref().is_some_and(|first_bytes| {
                             *first_bytes == bytes && !(source.named && bytes.contains(&0))
                         });
-                        let decoded = match out.first() {
+                        let copied = match out.first() {
                             Some((_, (first_ir, _, _))) if same => {
                                 let mut ir = first_ir.clone();
                                 ir.move_to(id);
@@ -348,7 +348,7 @@ fn read_and_lower(files: &[walk::SourcePath], options: &ScanOptions) -> Vec<Read
                             }
                             _ => None,
                         };
-                        match decoded {
+                        match copied {
                             Some(ir) => (ir, None, entry.clone()),
                             None => read_bytes(id, source, &bytes, options),
                         }
