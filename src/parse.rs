@@ -1313,9 +1313,32 @@ struct Lower<'a> {
     names: std::collections::HashSet<std::sync::Arc<str>>,
 }
 
-fn named_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
+/// A node's named children, in order, read from a cursor as they are asked for (no list
+/// is built: the lowering asks for the children of every node).
+fn named_children(node: Node<'_>) -> NamedChildren<'_> {
     let mut cursor = node.walk();
-    node.named_children(&mut cursor).collect()
+    let done = !cursor.goto_first_child();
+    NamedChildren { cursor, done }
+}
+
+struct NamedChildren<'t> {
+    cursor: tree_sitter::TreeCursor<'t>,
+    done: bool,
+}
+
+impl<'t> Iterator for NamedChildren<'t> {
+    type Item = Node<'t>;
+
+    fn next(&mut self) -> Option<Node<'t>> {
+        while !self.done {
+            let node = self.cursor.node();
+            self.done = !self.cursor.goto_next_sibling();
+            if node.is_named() {
+                return Some(node);
+            }
+        }
+        None
+    }
 }
 
 fn all_children<'t>(node: Node<'t>) -> Vec<Node<'t>> {
@@ -1537,12 +1560,8 @@ impl Lower<'_> {
             return;
         };
         let params = if function_like {
-            field_child(node, field::PARAMETERS).map(|p| {
-                named_children(p)
-                    .into_iter()
-                    .map(|n| self.text(n))
-                    .collect::<Vec<_>>()
-            })
+            field_child(node, field::PARAMETERS)
+                .map(|p| named_children(p).map(|n| self.text(n)).collect::<Vec<_>>())
         } else {
             None
         };
@@ -1815,7 +1834,7 @@ impl Lower<'_> {
                     current = field_child(current, field::DECLARATOR)?;
                 }
                 kind::PARENTHESIZED_DECLARATOR => {
-                    current = named_children(current).into_iter().next()?;
+                    current = named_children(current).next()?;
                 }
                 kind::INIT_DECLARATOR => {
                     current = field_child(current, field::DECLARATOR)?;
@@ -1823,7 +1842,7 @@ impl Lower<'_> {
                 _ => {
                     // Attributed or otherwise decorated declarators: look inside.
                     current = field_child(current, field::DECLARATOR)
-                        .or_else(|| named_children(current).into_iter().next())?;
+                        .or_else(|| named_children(current).next())?;
                 }
             }
         }
@@ -1974,7 +1993,7 @@ impl Lower<'_> {
                 return None;
             }
             kind::COMPOUND_STATEMENT => Stmt::Block(self.block(node, depth)),
-            kind::EXPRESSION_STATEMENT => match named_children(node).into_iter().next() {
+            kind::EXPRESSION_STATEMENT => match named_children(node).next() {
                 Some(e) if e.kind() != kind::COMMENT => Stmt::Expr(self.expr(e, depth)),
                 _ => return None,
             },
@@ -1988,7 +2007,7 @@ impl Lower<'_> {
                     .unwrap_or(Stmt::Block(Vec::new()));
                 let otherwise = field_child(node, field::ALTERNATIVE).and_then(|a| {
                     let inner = if a.kind() == kind::ELSE_CLAUSE {
-                        named_children(a).into_iter().next()?
+                        named_children(a).next()?
                     } else {
                         a
                     };
@@ -2064,7 +2083,6 @@ impl Lower<'_> {
             }
             kind::RETURN_STATEMENT => {
                 let value = named_children(node)
-                    .into_iter()
                     .find(|c| c.kind() != kind::COMMENT)
                     .map(|e| self.expr(e, depth));
                 Stmt::Return(value, self.span(node))
@@ -2161,10 +2179,7 @@ impl Lower<'_> {
                 long: false,
             },
             kind::PARENTHESIZED_EXPRESSION => {
-                return match named_children(node)
-                    .into_iter()
-                    .find(|c| c.kind() != kind::COMMENT)
-                {
+                return match named_children(node).find(|c| c.kind() != kind::COMMENT) {
                     Some(inner) => self.expr(inner, depth + 1),
                     None => self.opaque(node),
                 };
@@ -2260,7 +2275,6 @@ impl Lower<'_> {
                 let args = child(field::ARGUMENTS)
                     .map(|a| {
                         named_children(a)
-                            .into_iter()
                             .filter(|c| c.kind() != kind::COMMENT)
                             .map(|c| self.expr(c, depth + 1))
                             .collect::<Vec<Expr>>()

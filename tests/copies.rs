@@ -66,6 +66,19 @@ fn copied_files_report_what_separately_parsed_files_report() {
     assert!(registers().len() >= 4096 && driver().len() >= 4096);
     let (shared, shared_notes) = json_and_notes(dir.path());
 
+    // The cache, filled and then read, gives the same (copies share one entry).
+    let cache = tempfile::tempdir().unwrap();
+    let cache_arg = cache.path().to_string_lossy().into_owned();
+    for pass in ["filling", "reading"] {
+        let run = tauscan_in(
+            dir.path(),
+            &["list", "--format", "json", ".", "--cache", &cache_arg],
+            LIMIT,
+        );
+        run.assert_finished();
+        assert!(run.stdout == shared, "{pass} the cache changed the result");
+    }
+
     // Each board's smoothers are reported under its own path and line.
     let json: serde_json::Value = serde_json::from_slice(&shared).unwrap();
     let found: Vec<(String, u64, String)> = json["smoothers"]
