@@ -128,10 +128,14 @@ impl Cache {
         let read: Option<(Program, Recognition)> =
             stored.and_then(|bytes| postcard::from_bytes(&bytes).ok());
         match read {
-            Some((program, recognition))
+            Some((mut program, recognition))
                 if program.fits(&files) && recognition_fits(&recognition, &files) =>
             {
-                Ok((program.attach(files, paths, options), recognition))
+                if program.restore_call_arguments(&files) {
+                    Ok((program.attach(files, paths, options), recognition))
+                } else {
+                    Err((files, paths, options))
+                }
             }
             _ => Err((files, paths, options)),
         }

@@ -42,7 +42,9 @@ pub struct CallSite {
     pub caller: FuncRef,
     /// The name called, shared with the IR's.
     pub callee: std::sync::Arc<str>,
-    /// The call's arguments, shared with the IR's call expression.
+    /// The call's arguments, shared with the IR's call expression (not kept in the
+    /// cache: `Program::restore_call_arguments` takes them from the IR again).
+    #[serde(skip)]
     pub args: std::sync::Arc<Vec<Expr>>,
     pub span: Span,
 }
@@ -341,6 +343,48 @@ impl Program {
         self.paths = paths;
         self.options = options;
         self
+    }
+
+    /// The arguments of every call site, taken from its call in `files` (the cache keeps
+    /// the call table without them, so that they are not a second copy of the IR's): each
+    /// caller's calls are found in the order the table was built in, and each must have
+    /// the site's span and name. False when they do not, and the table cannot be used.
+    pub fn restore_call_arguments(&mut self, files: &[FileIr]) -> bool {
+        let calls = &mut self.calls;
+        for (caller, list) in &self.calls_by_caller {
+            let Some(f) = files
+                .get(caller.file)
+                .and_then(|file| file.functions.get(caller.index))
+            else {
+                return false;
+            };
+            let mut found: Vec<&Expr> = Vec::with_capacity(list.len());
+            visit_stmts(&f.body, &mut |e| {
+                if let ExprKind::Call { callee, .. } = &e.kind {
+                    if matches!(callee.kind, ExprKind::Ident(_)) {
+                        found.push(e);
+                    }
+                }
+            });
+            if found.len() != list.len() {
+                return false;
+            }
+            for (&i, e) in list.iter().zip(found) {
+                let ExprKind::Call { callee, args } = &e.kind else {
+                    return false;
+                };
+                let ExprKind::Ident(name) = &callee.kind else {
+                    return false;
+                };
+                match calls.get_mut(i) {
+                    Some(call) if call.span == e.span && call.callee == *name => {
+                        call.args = std::sync::Arc::clone(args);
+                    }
+                    _ => return false,
+                }
+            }
+        }
+        true
     }
 
     fn collect_writes_and_calls(&mut self) {
@@ -1846,6 +1890,33 @@ mod tests {
             ..ProgramOptions::default()
         };
         Program::build(vec![ir], vec!["a.c".into()], options)
+    }
+
+    /// The call table read back from its encoding (as the cache keeps it, without the
+    /// arguments) gets every call's arguments from the IR again, the same as built; and
+    /// refuses IR whose calls are not the table's.
+    #[test]
+    fn call_arguments_come_back_from_the_ir_or_the_table_is_refused() {
+        let src = "static float y;\nvoid vent_init(float k) { vent_set(&y, k, 2); }\n\
+                   void vent_step(float x) { vent_filter(&y, x); if (x > 1) vent_log(x + 1); }\n";
+        let built = program(src, &[]);
+        assert_eq!(built.calls.len(), 3);
+        let encoded = postcard::to_stdvec(&built).unwrap();
+        let mut read: Program = postcard::from_bytes(&encoded).unwrap();
+        assert!(read.calls.iter().all(|c| c.args.is_empty()));
+        let files = vec![parse_file(FileId(0), src.as_bytes())];
+        assert!(read.restore_call_arguments(&files));
+        for (a, b) in read.calls.iter().zip(&built.calls) {
+            assert_eq!((&a.callee, a.span, &a.args), (&b.callee, b.span, &b.args));
+        }
+        // The same shape, another call in the second function: refused.
+        let other = src.replace("vent_log(x + 1)", "vent_note(x + 1)");
+        let mut read: Program = postcard::from_bytes(&encoded).unwrap();
+        assert!(!read.restore_call_arguments(&[parse_file(FileId(0), other.as_bytes())]));
+        // A call fewer: refused.
+        let fewer = src.replace(" if (x > 1) vent_log(x + 1);", "");
+        let mut read: Program = postcard::from_bytes(&encoded).unwrap();
+        assert!(!read.restore_call_arguments(&[parse_file(FileId(0), fewer.as_bytes())]));
     }
 
     #[test]
