@@ -21,7 +21,7 @@ use std::sync::OnceLock;
 /// Bumped when the entry layout changes in a way the build's identity would not show.
 const LAYOUT: &[u8] = b"tauscan-ir-cache-2";
 /// The same for the whole-program entries.
-const PROGRAM_LAYOUT: &[u8] = b"tauscan-program-cache-1";
+const PROGRAM_LAYOUT: &[u8] = b"tauscan-program-cache-2";
 
 /// A cache folder, ready to use.
 #[derive(Debug, Clone)]

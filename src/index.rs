@@ -348,9 +348,11 @@ impl Program {
     /// The arguments of every call site, taken from its call in `files` (the cache keeps
     /// the call table without them, so that they are not a second copy of the IR's): each
     /// caller's calls are found in the order the table was built in, and each must have
-    /// the site's span and name. False when they do not, and the table cannot be used.
+    /// the site's caller, span and name; every site must be restored once. False when
+    /// not, and the table cannot be used.
     pub fn restore_call_arguments(&mut self, files: &[FileIr]) -> bool {
         let calls = &mut self.calls;
+        let mut restored = vec![false; calls.len()];
         for (caller, list) in &self.calls_by_caller {
             let Some(f) = files
                 .get(caller.file)
@@ -376,15 +378,22 @@ impl Program {
                 let ExprKind::Ident(name) = &callee.kind else {
                     return false;
                 };
-                match calls.get_mut(i) {
-                    Some(call) if call.span == e.span && call.callee == *name => {
+                match (calls.get_mut(i), restored.get_mut(i)) {
+                    (Some(call), Some(done))
+                        if !*done
+                            && call.caller == *caller
+                            && call.span == e.span
+                            && call.callee == *name =>
+                    {
                         call.args = std::sync::Arc::clone(args);
+                        call.callee = std::sync::Arc::clone(name);
+                        *done = true;
                     }
                     _ => return false,
                 }
             }
         }
-        true
+        restored.iter().all(|&done| done)
     }
 
     fn collect_writes_and_calls(&mut self) {
@@ -1917,6 +1926,15 @@ mod tests {
         let fewer = src.replace(" if (x > 1) vent_log(x + 1);", "");
         let mut read: Program = postcard::from_bytes(&encoded).unwrap();
         assert!(!read.restore_call_arguments(&[parse_file(FileId(0), fewer.as_bytes())]));
+        // A damaged table that names a caller's calls nowhere: refused, not left empty.
+        let mut read: Program = postcard::from_bytes(&encoded).unwrap();
+        let init = *read
+            .calls_by_caller
+            .keys()
+            .find(|f| files[0].functions[f.index].name == "vent_init")
+            .unwrap();
+        read.calls_by_caller.remove(&init);
+        assert!(!read.restore_call_arguments(&files));
     }
 
     #[test]

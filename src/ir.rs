@@ -773,8 +773,8 @@ impl fmt::Display for Condition {
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct MacroDef {
     /// Name and body are shared text: a vendor's headers copied per board define the same
-    /// names to the same values hundreds of thousands of times (`Program::build` makes
-    /// equal texts one).
+    /// names to the same values hundreds of thousands of times, and a copied file's IR is
+    /// a clone of the first copy's (`FileIr::move_to`), sharing them.
     pub name: std::sync::Arc<str>,
     /// None for object-like macros.
     pub params: Option<Vec<String>>,

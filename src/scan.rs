@@ -2,8 +2,9 @@
 //! smoothers recognised and their figures computed.
 //!
 //! Each file is read and parsed on a worker thread and only its IR is kept (the syntax
-//! tree and the bytes are dropped as soon as the file is lowered), so memory follows the
-//! IR, not the trees. Problems with single files are collected as notes; the scan goes on.
+//! tree and the bytes are dropped as soon as the file is lowered, or, for a file with
+//! copies, once its copies are compared with it), so memory follows the IR, not the
+//! trees. Problems with single files are collected as notes; the scan goes on.
 
 use crate::cache::{Cache, Entry};
 use crate::figures::{self, SmootherFigures};

@@ -201,12 +201,12 @@ impl Graph {
                 _ => false,
             }
         }
-        if !has_array(ty) {
+        // Every type is also under its text, so that a graph with many types is searched
+        // by it instead (the comparison is linear).
+        if !has_array(ty) && self.types.len() <= 32 {
             if let Some(i) = self.types.iter().position(|t| t == ty) {
                 return TypeId(i as u32);
             }
-            self.types.push(ty.clone());
-            return TypeId(self.types.len() as u32 - 1);
         }
         let key = format!("{ty:?}");
         if let Some(t) = self.type_index.get(&key) {
