@@ -830,7 +830,19 @@ impl Program {
     /// built (a header's include guard, a configuration header's `#ifndef` defaults), and
     /// what each is known to be when unknown names may come from the build.
     fn compute_definedness(&mut self) {
-        let names: Vec<std::sync::Arc<str>> = self.macros.keys().cloned().collect();
+        // Judged in a fixed order, not the hash table's: of two names each defined where
+        // the other is not (`#ifndef B` / `#define A`, then `#ifndef A` / `#define B`),
+        // the one judged first counts the other as defined. Later definitions are judged
+        // first, so the name defined first in file order holds, as the preprocessor
+        // reading from the top has it.
+        let mut names: Vec<(&(usize, usize), &std::sync::Arc<str>)> = self
+            .macros
+            .iter()
+            .filter_map(|(name, refs)| Some((refs.first()?, name)))
+            .collect();
+        names.sort_unstable_by(|a, b| b.0.cmp(a.0).then_with(|| a.1.cmp(b.1)));
+        let names: Vec<std::sync::Arc<str>> =
+            names.into_iter().map(|(_, name)| name.clone()).collect();
         let mut defined = HashMap::new();
         let mut tri = HashMap::new();
         // An include guard (`#ifndef X` / `#define X` around a header) is undefined where
@@ -1904,6 +1916,30 @@ mod tests {
     /// The call table read back from its encoding (as the cache keeps it, without the
     /// arguments) gets every call's arguments from the IR again, the same as built; and
     /// refuses IR whose calls are not the table's.
+    #[test]
+    fn mutually_exclusive_defaults_are_judged_the_same_in_every_build() {
+        // Each of two names is defined where the other is not: which one wins depends on
+        // which is judged first, and that must not be the hash table's order.
+        let src = "#ifndef KILN_FIXED\n#define KILN_FLOAT 1\n#endif\n\
+                   #ifndef KILN_FLOAT\n#define KILN_FIXED 1\n#endif\n";
+        let first = program(src, &[]);
+        let seen = (
+            first.is_defined("KILN_FLOAT"),
+            first.is_defined("KILN_FIXED"),
+        );
+        // The preprocessor reading from the top defines the first and not the second
+        // (C11 6.10.1, conditional inclusion, and 6.10.3, a macro is defined from its
+        // `#define` on).
+        assert_eq!(seen, (true, false));
+        for _ in 0..40 {
+            let p = program(src, &[]);
+            assert_eq!(
+                (p.is_defined("KILN_FLOAT"), p.is_defined("KILN_FIXED")),
+                seen
+            );
+        }
+    }
+
     #[test]
     fn call_arguments_come_back_from_the_ir_or_the_table_is_refused() {
         let src = "static float y;\nvoid vent_init(float k) { vent_set(&y, k, 2); }\n\
