@@ -360,24 +360,16 @@ impl Program {
             else {
                 return false;
             };
-            let mut found: Vec<&Expr> = Vec::with_capacity(list.len());
+            let mut found = Vec::with_capacity(list.len());
             visit_stmts(&f.body, &mut |e| {
-                if let ExprKind::Call { callee, .. } = &e.kind {
-                    if matches!(callee.kind, ExprKind::Ident(_)) {
-                        found.push(e);
-                    }
+                if let Some((name, args)) = named_call(e) {
+                    found.push((e, name, args));
                 }
             });
             if found.len() != list.len() {
                 return false;
             }
-            for (&i, e) in list.iter().zip(found) {
-                let ExprKind::Call { callee, args } = &e.kind else {
-                    return false;
-                };
-                let ExprKind::Ident(name) = &callee.kind else {
-                    return false;
-                };
+            for (&i, (e, name, args)) in list.iter().zip(found) {
                 match (calls.get_mut(i), restored.get_mut(i)) {
                     (Some(call), Some(done))
                         if !*done
@@ -1376,6 +1368,17 @@ pub fn canonical_place(expr: &Expr) -> String {
     expr.to_string()
 }
 
+/// A call of a function by name (the call table's entries): the name and the arguments.
+fn named_call(e: &Expr) -> Option<(&std::sync::Arc<str>, &std::sync::Arc<Vec<Expr>>)> {
+    let ExprKind::Call { callee, args } = &e.kind else {
+        return None;
+    };
+    match &callee.kind {
+        ExprKind::Ident(name) => Some((name, args)),
+        _ => None,
+    }
+}
+
 /// The writes to non-locals and the calls of one file's functions.
 fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Write>, Vec<CallSite>) {
     let mut writes = Vec::new();
@@ -1433,8 +1436,8 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
                 span: e.span,
                 unconditional: false,
             }),
-            ExprKind::Call { callee, args } => {
-                if let ExprKind::Ident(name) = &callee.kind {
+            _ => {
+                if let Some((name, args)) = named_call(e) {
                     calls.push(CallSite {
                         caller: fref,
                         callee: name.clone(),
@@ -1443,7 +1446,6 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
                     });
                 }
             }
-            _ => {}
         });
         for w in &mut writes[first..] {
             w.unconditional = top_level.contains(&w.span.start);

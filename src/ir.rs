@@ -301,6 +301,47 @@ impl Expr {
         Expr { kind, span }
     }
 
+    /// Calls `visit` on each direct sub-expression, in order, for the rewrites that recurse
+    /// through it. A call's arguments are shared with the index (`Arc`), so they are
+    /// copied first when shared (`Arc::make_mut`).
+    pub fn children_mut(&mut self, visit: &mut dyn FnMut(&mut Expr)) {
+        match &mut self.kind {
+            ExprKind::Field { base, .. } => visit(base),
+            ExprKind::Index { base, index } => {
+                visit(base);
+                visit(index);
+            }
+            ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => visit(arg),
+            ExprKind::Binary { lhs, rhs, .. } => {
+                visit(lhs);
+                visit(rhs);
+            }
+            ExprKind::Assign { target, value, .. } => {
+                visit(target);
+                visit(value);
+            }
+            ExprKind::IncDec { target, .. } => visit(target),
+            ExprKind::Call { callee, args } => {
+                visit(callee);
+                std::sync::Arc::make_mut(args).iter_mut().for_each(visit);
+            }
+            ExprKind::Conditional {
+                cond,
+                then,
+                otherwise,
+            } => {
+                visit(cond);
+                visit(then);
+                visit(otherwise);
+            }
+            ExprKind::Comma(items) => items.iter_mut().for_each(visit),
+            ExprKind::Int { .. }
+            | ExprKind::Float { .. }
+            | ExprKind::Ident(_)
+            | ExprKind::Opaque(_) => {}
+        }
+    }
+
     /// Calls `visit` on this expression and every sub-expression, parents first.
     pub fn walk<'a>(&'a self, visit: &mut dyn FnMut(&'a Expr)) {
         visit(self);
@@ -871,47 +912,10 @@ impl FileIr {
         }
         fn expr(e: &mut Expr, file: FileId) {
             e.span.file = file;
-            match &mut e.kind {
-                ExprKind::Field { base, .. } => expr(base, file),
-                ExprKind::Index { base, index } => {
-                    expr(base, file);
-                    expr(index, file);
-                }
-                ExprKind::Unary { arg, .. } => expr(arg, file),
-                ExprKind::Cast { ty: t, arg } => {
-                    ty(t, file);
-                    expr(arg, file);
-                }
-                ExprKind::Binary { lhs, rhs, .. } => {
-                    expr(lhs, file);
-                    expr(rhs, file);
-                }
-                ExprKind::Assign { target, value, .. } => {
-                    expr(target, file);
-                    expr(value, file);
-                }
-                ExprKind::IncDec { target, .. } => expr(target, file),
-                ExprKind::Call { callee, args } => {
-                    expr(callee, file);
-                    for a in std::sync::Arc::make_mut(args) {
-                        expr(a, file);
-                    }
-                }
-                ExprKind::Conditional {
-                    cond,
-                    then,
-                    otherwise,
-                } => {
-                    expr(cond, file);
-                    expr(then, file);
-                    expr(otherwise, file);
-                }
-                ExprKind::Comma(items) => items.iter_mut().for_each(|i| expr(i, file)),
-                ExprKind::Int { .. }
-                | ExprKind::Float { .. }
-                | ExprKind::Ident(_)
-                | ExprKind::Opaque(_) => {}
+            if let ExprKind::Cast { ty: t, .. } = &mut e.kind {
+                ty(t, file);
             }
+            e.children_mut(&mut |c| expr(c, file));
         }
         fn init(i: &mut Initializer, file: FileId) {
             match i {

@@ -1246,47 +1246,7 @@ fn relocate_stmt(stmt: &mut Stmt, anchor: Span) {
 /// Moves every span of `expr` to `anchor`.
 pub fn relocate_expr(expr: &mut Expr, anchor: Span) {
     expr.span = anchor;
-    match &mut expr.kind {
-        ExprKind::Field { base, .. } => relocate_expr(base, anchor),
-        ExprKind::Index { base, index } => {
-            relocate_expr(base, anchor);
-            relocate_expr(index, anchor);
-        }
-        ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => relocate_expr(arg, anchor),
-        ExprKind::Binary { lhs, rhs, .. } => {
-            relocate_expr(lhs, anchor);
-            relocate_expr(rhs, anchor);
-        }
-        ExprKind::Assign { target, value, .. } => {
-            relocate_expr(target, anchor);
-            relocate_expr(value, anchor);
-        }
-        ExprKind::IncDec { target, .. } => relocate_expr(target, anchor),
-        ExprKind::Call { callee, args } => {
-            relocate_expr(callee, anchor);
-            for a in std::sync::Arc::make_mut(args) {
-                relocate_expr(a, anchor);
-            }
-        }
-        ExprKind::Conditional {
-            cond,
-            then,
-            otherwise,
-        } => {
-            relocate_expr(cond, anchor);
-            relocate_expr(then, anchor);
-            relocate_expr(otherwise, anchor);
-        }
-        ExprKind::Comma(items) => {
-            for i in items {
-                relocate_expr(i, anchor);
-            }
-        }
-        ExprKind::Int { .. }
-        | ExprKind::Float { .. }
-        | ExprKind::Ident(_)
-        | ExprKind::Opaque(_) => {}
-    }
+    expr.children_mut(&mut |c| relocate_expr(c, anchor));
 }
 
 /// Prints the tree-sitter syntax tree of a file, for `tauscan debug syntax`.

@@ -139,49 +139,7 @@ pub fn object_body(program: &Program, r: MacroRef, anchor: Span) -> Option<Macro
 /// Applies `fix` to every sub-expression, innermost first; true when anything changed.
 fn repair_casts(e: &mut Expr, fix: &dyn Fn(&Expr) -> Option<Expr>) -> bool {
     let mut changed = false;
-    match &mut e.kind {
-        ExprKind::Field { base, .. } => changed |= repair_casts(base, fix),
-        ExprKind::Index { base, index } => {
-            changed |= repair_casts(base, fix);
-            changed |= repair_casts(index, fix);
-        }
-        ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => {
-            changed |= repair_casts(arg, fix)
-        }
-        ExprKind::Binary { lhs, rhs, .. } => {
-            changed |= repair_casts(lhs, fix);
-            changed |= repair_casts(rhs, fix);
-        }
-        ExprKind::Assign { target, value, .. } => {
-            changed |= repair_casts(target, fix);
-            changed |= repair_casts(value, fix);
-        }
-        ExprKind::IncDec { target, .. } => changed |= repair_casts(target, fix),
-        ExprKind::Call { callee, args } => {
-            changed |= repair_casts(callee, fix);
-            for a in std::sync::Arc::make_mut(args) {
-                changed |= repair_casts(a, fix);
-            }
-        }
-        ExprKind::Conditional {
-            cond,
-            then,
-            otherwise,
-        } => {
-            changed |= repair_casts(cond, fix);
-            changed |= repair_casts(then, fix);
-            changed |= repair_casts(otherwise, fix);
-        }
-        ExprKind::Comma(items) => {
-            for i in items {
-                changed |= repair_casts(i, fix);
-            }
-        }
-        ExprKind::Int { .. }
-        | ExprKind::Float { .. }
-        | ExprKind::Ident(_)
-        | ExprKind::Opaque(_) => {}
-    }
+    e.children_mut(&mut |c| changed |= repair_casts(c, fix));
     if let Some(r) = fix(e) {
         *e = r;
         changed = true;
@@ -318,47 +276,7 @@ pub fn replace_in_expr(expr: &mut Expr, f: &dyn Fn(&Expr) -> Option<Expr>) {
         *expr = r;
         return;
     }
-    match &mut expr.kind {
-        ExprKind::Field { base, .. } => replace_in_expr(base, f),
-        ExprKind::Index { base, index } => {
-            replace_in_expr(base, f);
-            replace_in_expr(index, f);
-        }
-        ExprKind::Unary { arg, .. } | ExprKind::Cast { arg, .. } => replace_in_expr(arg, f),
-        ExprKind::Binary { lhs, rhs, .. } => {
-            replace_in_expr(lhs, f);
-            replace_in_expr(rhs, f);
-        }
-        ExprKind::Assign { target, value, .. } => {
-            replace_in_expr(target, f);
-            replace_in_expr(value, f);
-        }
-        ExprKind::IncDec { target, .. } => replace_in_expr(target, f),
-        ExprKind::Call { callee, args } => {
-            replace_in_expr(callee, f);
-            for a in std::sync::Arc::make_mut(args) {
-                replace_in_expr(a, f);
-            }
-        }
-        ExprKind::Conditional {
-            cond,
-            then,
-            otherwise,
-        } => {
-            replace_in_expr(cond, f);
-            replace_in_expr(then, f);
-            replace_in_expr(otherwise, f);
-        }
-        ExprKind::Comma(items) => {
-            for i in items {
-                replace_in_expr(i, f);
-            }
-        }
-        ExprKind::Int { .. }
-        | ExprKind::Float { .. }
-        | ExprKind::Ident(_)
-        | ExprKind::Opaque(_) => {}
-    }
+    expr.children_mut(&mut |c| replace_in_expr(c, f));
 }
 
 /// Whether a macro body can hold an update: an assignment operator somewhere in its text.
