@@ -267,12 +267,13 @@ pub fn build(program: &Program) -> CallGraph {
     let mut indirect: Vec<(FuncRef, Option<Key>, Span, String, bool)> = Vec::new();
     for f in program.functions() {
         let function = program.function(f);
+        let body = function.body();
         let mut decls = Vec::new();
-        decls_in(&function.body, &mut decls);
+        decls_in(&body, &mut decls);
         for d in decls {
             b.decl(d, f.file);
         }
-        crate::index::visit_stmts(&function.body, &mut |e| match &e.kind {
+        crate::index::visit_stmts(&body, &mut |e| match &e.kind {
             ExprKind::Call { callee, .. } => match indirect_callee(program, f, callee) {
                 None => {
                     if let ExprKind::Ident(name) = &callee.kind {

@@ -13,11 +13,14 @@ use std::fmt;
 /// Serialised as its number. A file's IR read back from the cache belongs to whatever
 /// index the file has in this scan, so deserialising gives the index set by
 /// [`with_file_id`] when there is one (every `FileId` inside one `FileIr` is that file's).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Default, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
 pub struct FileId(pub u32);
 
 thread_local! {
     static LOADING_AS: std::cell::Cell<Option<u32>> = const { std::cell::Cell::new(None) };
+    /// Set while a function body is parked: its file ids are written as 0, so that equal
+    /// bodies of different files (copies) park as equal bytes.
+    static PARKING: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
     /// The names read so far while a file is loaded, so that each is allocated once, as
     /// the lowering does.
     static LOADING_NAMES: std::cell::RefCell<Option<std::collections::HashSet<std::sync::Arc<str>>>> =
@@ -59,6 +62,13 @@ fn shared_name<'de, D: serde::Deserializer<'de>>(d: D) -> Result<std::sync::Arc<
         }
     }
     d.deserialize_str(Name)
+}
+
+impl serde::Serialize for FileId {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let id = if PARKING.with(|p| p.get()) { 0 } else { self.0 };
+        s.serialize_u32(id)
+    }
 }
 
 impl<'de> serde::Deserialize<'de> for FileId {
@@ -747,10 +757,196 @@ pub struct Function {
     pub params: Vec<Param>,
     pub returns: CType,
     pub is_static: bool,
-    pub body: Vec<Stmt>,
+    pub body: Body,
     pub span: Span,
     pub name_span: Span,
     pub condition: Condition,
+}
+
+impl Function {
+    /// The function's statements, read back if the body is parked.
+    pub fn body(&self) -> Stmts<'_> {
+        self.body.stmts(self.span.file)
+    }
+}
+
+/// A function's statements: as lowered, or parked once its file is lowered.
+///
+/// A body takes most of a file's IR in memory (on a tree without copies, over half of
+/// it), and later stages read each body a few times, one at a time. Parked, it is the
+/// body's postcard encoding (a fifth of the memory or less), with every file id written
+/// as 0; it is read back as the file it belongs to ([`Function::body`]), and the last few
+/// bodies read on each thread are kept decoded. Bodies equal but for their file park as
+/// equal bytes, so `==` compares the bytes.
+#[derive(Clone)]
+pub enum Body {
+    Live(Vec<Stmt>),
+    Parked(std::sync::Arc<[u8]>),
+}
+
+impl Default for Body {
+    fn default() -> Body {
+        Body::Live(Vec::new())
+    }
+}
+
+impl From<Vec<Stmt>> for Body {
+    fn from(stmts: Vec<Stmt>) -> Body {
+        Body::Live(stmts)
+    }
+}
+
+/// A function's statements as read: borrowed from a live body, or shared with the decoded
+/// bodies each thread keeps.
+pub enum Stmts<'a> {
+    Borrowed(&'a [Stmt]),
+    Decoded(std::rc::Rc<Vec<Stmt>>),
+}
+
+impl std::ops::Deref for Stmts<'_> {
+    type Target = [Stmt];
+    fn deref(&self) -> &[Stmt] {
+        match self {
+            Stmts::Borrowed(s) => s,
+            Stmts::Decoded(s) => s,
+        }
+    }
+}
+
+/// How many decoded bodies each thread keeps: the function being walked and the few it
+/// looks into (an init function, a helper's return).
+const DECODED_KEPT: usize = 4;
+
+type DecodedBody = (std::sync::Arc<[u8]>, FileId, std::rc::Rc<Vec<Stmt>>);
+
+thread_local! {
+    /// The bodies last decoded on this thread, newest last. Each holds its parked bytes,
+    /// so an entry's address cannot be reused by another body while it is here.
+    static DECODED: std::cell::RefCell<Vec<DecodedBody>> = const { std::cell::RefCell::new(Vec::new()) };
+}
+
+fn park(stmts: &[Stmt]) -> Option<std::sync::Arc<[u8]>> {
+    let before = PARKING.with(|p| p.replace(true));
+    let bytes = postcard::to_stdvec(stmts);
+    PARKING.with(|p| p.set(before));
+    bytes.ok().map(Into::into)
+}
+
+fn unpark(bytes: &[u8], file: FileId) -> Option<Vec<Stmt>> {
+    with_file_id(file, || postcard::from_bytes(bytes)).ok()
+}
+
+impl Body {
+    /// Parks a live body (a body that cannot be encoded stays live).
+    pub fn park(&mut self) {
+        if let Body::Live(stmts) = self {
+            if let Some(bytes) = park(stmts) {
+                *self = Body::Parked(bytes);
+            }
+        }
+    }
+
+    /// Whether a parked body reads back (a damaged cache entry may hold one that does not).
+    pub fn reads_back(&self) -> bool {
+        match self {
+            Body::Live(_) => true,
+            Body::Parked(bytes) => unpark(bytes, FileId(0)).is_some(),
+        }
+    }
+
+    /// The statements as file `file`'s. A parked body that does not read back (never made
+    /// by this build) reads as no statements.
+    pub fn stmts(&self, file: FileId) -> Stmts<'_> {
+        let bytes = match self {
+            Body::Live(stmts) => return Stmts::Borrowed(stmts),
+            Body::Parked(bytes) => bytes,
+        };
+        let hit = DECODED.with(|d| {
+            let mut d = d.borrow_mut();
+            let at = d
+                .iter()
+                .position(|(b, f, _)| std::sync::Arc::ptr_eq(b, bytes) && *f == file)?;
+            let entry = d.remove(at);
+            let stmts = entry.2.clone();
+            d.push(entry);
+            Some(stmts)
+        });
+        if let Some(stmts) = hit {
+            return Stmts::Decoded(stmts);
+        }
+        let stmts = std::rc::Rc::new(unpark(bytes, file).unwrap_or_default());
+        DECODED.with(|d| {
+            let mut d = d.borrow_mut();
+            if d.len() >= DECODED_KEPT {
+                d.remove(0);
+            }
+            d.push((bytes.clone(), file, stmts.clone()));
+        });
+        Stmts::Decoded(stmts)
+    }
+
+    /// The statements of a live body, to change them (the lowering's and tests' own).
+    pub fn live_mut(&mut self) -> Option<&mut Vec<Stmt>> {
+        match self {
+            Body::Live(stmts) => Some(stmts),
+            Body::Parked(_) => None,
+        }
+    }
+
+    fn parked_bytes(&self) -> Option<std::borrow::Cow<'_, [u8]>> {
+        match self {
+            Body::Live(stmts) => park(stmts).map(|b| std::borrow::Cow::Owned(b.to_vec())),
+            Body::Parked(bytes) => Some(std::borrow::Cow::Borrowed(bytes)),
+        }
+    }
+}
+
+impl PartialEq for Body {
+    fn eq(&self, other: &Body) -> bool {
+        match (self, other) {
+            (Body::Live(a), Body::Live(b)) => a == b,
+            _ => self.parked_bytes() == other.parked_bytes(),
+        }
+    }
+}
+
+impl fmt::Debug for Body {
+    fn fmt(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        match self {
+            Body::Live(stmts) => stmts.fmt(f),
+            Body::Parked(bytes) => write!(f, "Parked({} bytes)", bytes.len()),
+        }
+    }
+}
+
+/// Written as the parked bytes, so that a cached file's bodies are read back parked.
+impl serde::Serialize for Body {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        match self.parked_bytes() {
+            Some(bytes) => s.serialize_bytes(&bytes),
+            None => Err(serde::ser::Error::custom("a body that cannot be encoded")),
+        }
+    }
+}
+
+impl<'de> serde::Deserialize<'de> for Body {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Body, D::Error> {
+        struct Bytes;
+        impl<'de> serde::de::Visitor<'de> for Bytes {
+            type Value = Vec<u8>;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a parked function body")
+            }
+            fn visit_bytes<E: serde::de::Error>(self, v: &[u8]) -> Result<Vec<u8>, E> {
+                Ok(v.to_vec())
+            }
+            fn visit_byte_buf<E: serde::de::Error>(self, v: Vec<u8>) -> Result<Vec<u8>, E> {
+                Ok(v)
+            }
+        }
+        let bytes = d.deserialize_byte_buf(Bytes)?;
+        Ok(Body::Parked(bytes.into()))
+    }
 }
 
 /// One branch of a preprocessor conditional: what makes it active.
@@ -995,7 +1191,10 @@ impl FileIr {
                 ty(&mut p.ty, file);
             }
             ty(&mut f.returns, file);
-            f.body.iter_mut().for_each(|s| stmt(s, file));
+            // A parked body holds no file ids: it is read back as its function's file.
+            if let Some(body) = f.body.live_mut() {
+                body.iter_mut().for_each(|s| stmt(s, file));
+            }
         }
         for s in &mut self.structs {
             s.span.file = file;
@@ -1034,4 +1233,24 @@ pub struct Include {
 pub struct ParseProblem {
     pub span: Span,
     pub message: String,
+}
+
+#[cfg(test)]
+mod body_tests {
+    use super::*;
+
+    #[test]
+    fn a_parked_body_that_does_not_read_back_is_no_statements() {
+        let damaged = Body::Parked(vec![0xff, 0xff, 0xff].into());
+        assert!(!damaged.reads_back());
+        assert!(damaged.stmts(FileId(1)).is_empty());
+        let ir = crate::parse::parse_file(FileId(1), b"int y;\nvoid f(int u) { y += u; }\n");
+        let mut body = ir.functions[0].body.clone();
+        assert!(body.reads_back());
+        body.park();
+        assert!(body.reads_back());
+        assert_eq!(body.stmts(FileId(1)).len(), 1);
+        assert_eq!(body, ir.functions[0].body);
+        assert_ne!(body, damaged);
+    }
 }

@@ -1173,9 +1173,12 @@ fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
     if lower.errors > 0 || lower.too_deep.is_some() {
         return None;
     }
-    let mut function = ir.functions.pop()?;
-    relocate_stmts(&mut function.body, anchor);
-    Some(function.body)
+    let function = ir.functions.pop()?;
+    let Body::Live(mut body) = function.body else {
+        return None;
+    };
+    relocate_stmts(&mut body, anchor);
+    Some(body)
 }
 
 pub fn relocate_stmts(stmts: &mut [Stmt], anchor: Span) {
@@ -1568,7 +1571,7 @@ impl Lower<'_> {
             params: params.unwrap_or_default(),
             returns,
             is_static: specifiers.is_static,
-            body,
+            body: body.into(),
             span: self.span(node),
             name_span,
             condition: cond.clone(),
@@ -2512,7 +2515,7 @@ mod tests {
     fn first_assigned(src: &str) -> String {
         let ir = parse_file(FileId(0), src.as_bytes());
         let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
-        let found = f.body.iter().find_map(|s| match s {
+        let found = f.body().iter().find_map(|s| match s {
             Stmt::Expr(Expr {
                 kind: ExprKind::Assign { value, .. },
                 ..
@@ -2543,7 +2546,7 @@ mod tests {
         assert_eq!(ir.problems[0].span.line, 3);
         let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
         assert!(matches!(
-            f.body.first(),
+            f.body().first(),
             Some(Stmt::If {
                 otherwise: Some(_),
                 ..
@@ -2553,7 +2556,8 @@ mod tests {
         let src = "float y;\nvoid f(float u, int ok) {\n#if 0\n    if (ok) { y = u;\n#else\n    if (ok) { y += 0.5f * (u - y);\n#endif\n    }\n}\n";
         let ir = parse_file(FileId(0), src.as_bytes());
         let f = ir.functions.iter().find(|f| f.name == "f").expect("f");
-        let Some(Stmt::If { then, .. }) = f.body.first() else {
+        let body = f.body();
+        let Some(Stmt::If { then, .. }) = body.first() else {
             panic!("{:?}", f.body);
         };
         let text = format!("{then:?}");
@@ -2599,13 +2603,15 @@ mod tests {
     #[test]
     fn lowers_compound_assignment_with_spans() {
         let f = one_function("void f(int u) {\n  static int y;\n  y += (u - y) >> 3;\n}\n");
-        let Stmt::Expr(e) = &f.body[1] else {
-            panic!("expected expression, got {:?}", f.body[1])
+        let Stmt::Expr(e) = &f.body()[1] else {
+            panic!("expected expression, got {:?}", f.body()[1])
         };
         assert_eq!(e.to_string(), "y += (u - y) >> 3");
         assert_eq!(e.span.line, 3);
         assert_eq!(e.span.column, 3);
-        let Stmt::Decl(d) = &f.body[0] else { panic!() };
+        let Stmt::Decl(d) = &f.body()[0] else {
+            panic!()
+        };
         assert!(d[0].is_static);
     }
 

@@ -1144,7 +1144,7 @@ impl<'p> Evaluator<'p> {
                 ),
             );
             let returns = ev.program.resolve_type(&function.returns);
-            ev.run_body(&function.body, &mut inner)?
+            ev.run_body(&function.body(), &mut inner)?
                 .map(|v| v.convert(&returns, ev.target()))
                 .ok_or_else(|| Unknown::new(format!("{name}() returns no constant")))
         })
@@ -1461,7 +1461,7 @@ pub fn local_type(function: &Function, name: &str) -> Option<CType> {
         return Some(p.ty.clone());
     }
     let mut found = None;
-    find_local_decl(&function.body, name, &mut found);
+    find_local_decl(&function.body(), name, &mut found);
     found.map(|d| d.ty)
 }
 
@@ -1492,13 +1492,13 @@ fn struct_member<'a>(
 /// address never taken: then its value is its initialiser wherever it is read.
 fn single_assignment(function: &Function, name: &str) -> bool {
     let mut declarations = 0;
-    count_local_decls(&function.body, name, &mut declarations);
+    count_local_decls(&function.body(), name, &mut declarations);
     if declarations != 1 {
         return false;
     }
     // The program's write index leaves a function's locals out: look in the body.
     let mut changed = false;
-    crate::index::visit_stmts(&function.body, &mut |e| match &e.kind {
+    crate::index::visit_stmts(&function.body(), &mut |e| match &e.kind {
         ExprKind::Unary {
             op: UnaryOp::AddrOf,
             arg,
@@ -1541,7 +1541,7 @@ fn count_local_decls(stmts: &[Stmt], name: &str, count: &mut usize) {
 
 pub fn find_local(function: &Function, name: &str) -> Option<LocalDecl> {
     let mut found = None;
-    find_local_decl(&function.body, name, &mut found);
+    find_local_decl(&function.body(), name, &mut found);
     found
 }
 

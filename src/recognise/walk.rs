@@ -165,7 +165,7 @@ impl Helpers {
 
 fn compute_return(program: &Program, f: FuncRef) -> Option<ReturnTemplate> {
     let function = program.function(f);
-    if function.body.len() > 24 || matches!(function.returns, CType::Void) {
+    if function.body().len() > 24 || matches!(function.returns, CType::Void) {
         return None;
     }
     let setup = Setup {
@@ -176,14 +176,15 @@ fn compute_return(program: &Program, f: FuncRef) -> Option<ReturnTemplate> {
         summaries: None,
         budget: 20_000,
     };
-    let folded = fold_early_returns(&function.body);
+    let folded = fold_early_returns(&function.body());
     let r = match &folded {
         Some(body) => walk_function_body(&setup, body),
         None => walk_function(&setup),
     };
     // Branches are allowed when they only choose a value (`if (v > MAX) r = MAX; else ...
     // return r;`): one return, on every path, and no loop or switch.
-    let branched_value = r.returns.len() == 1 && r.returns[0].1 && only_branches(&function.body, 0);
+    let branched_value =
+        r.returns.len() == 1 && r.returns[0].1 && only_branches(&function.body(), 0);
     if !(r.straight || branched_value)
         || !r.stores.is_empty()
         || r.returns.len() != 1
@@ -384,7 +385,7 @@ fn fold_early_returns(body: &[Stmt]) -> Option<Vec<Stmt>> {
 
 pub fn walk_function(setup: &Setup) -> WalkResult {
     match setup.function {
-        Some(f) => walk_function_body(setup, &setup.program.function(f).body),
+        Some(f) => walk_function_body(setup, &setup.program.function(f).body()),
         None => Walker::new(setup).finish(),
     }
 }

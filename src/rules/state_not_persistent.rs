@@ -95,7 +95,7 @@ fn check(ctx: &Context, out: &mut Vec<Finding>) {
         }
         let Some(f) = s.function_ref else { continue };
         let function = program.function(f);
-        if in_loop(&function.body, s.span) {
+        if in_loop(&function.body(), s.span) {
             continue;
         }
         let (start, declared) = start_of(program, s);

@@ -109,7 +109,7 @@ fn index_wrap(r: &Reading, index: V) -> Option<(f64, Expr)> {
         }
     }
     // A local index: `i = (i + 1) % N` among the function's own statements.
-    let body = &r.program.function(function).body;
+    let body = &*r.program.function(function).body();
     let mut found = None;
     crate::index::visit_stmts(body, &mut |e| {
         if found.is_some() {
