@@ -14,6 +14,7 @@
 //! It knows nothing of smoothers; `affine` reads it as algebra, `judge` decides.
 
 use crate::ir::*;
+use rustc_hash::FxHashMap;
 use std::collections::HashMap;
 
 /// A value in one graph.
@@ -135,11 +136,13 @@ pub struct HomeInfo {
 #[derive(Debug, Clone)]
 pub struct Graph {
     nodes: Vec<Node>,
-    index: HashMap<Node, V>,
+    /// The graph's own tables are hashed with `FxHash` (a walk adds a node per value it
+    /// reads; nothing here is iterated, so the order of the tables never shows).
+    index: FxHashMap<Node, V>,
     names: Vec<String>,
-    name_index: HashMap<String, Sym>,
+    name_index: FxHashMap<String, Sym>,
     types: Vec<CType>,
-    type_index: HashMap<String, TypeId>,
+    type_index: FxHashMap<String, TypeId>,
     homes: Vec<HomeInfo>,
     budget: usize,
     huge: u32,
@@ -149,11 +152,11 @@ impl Graph {
     pub fn new(budget: usize) -> Graph {
         Graph {
             nodes: Vec::new(),
-            index: HashMap::new(),
+            index: FxHashMap::default(),
             names: Vec::new(),
-            name_index: HashMap::new(),
+            name_index: FxHashMap::default(),
             types: Vec::new(),
-            type_index: HashMap::new(),
+            type_index: FxHashMap::default(),
             homes: Vec::new(),
             budget,
             huge: 0,
