@@ -264,8 +264,11 @@ pub fn recognise_counting(
     let mut result = Recognition::default();
     let mut summaries = walk::Summaries::default();
     let mut used: BTreeSet<crate::index::MacroRef> = BTreeSet::new();
+    // The smoothers are joined once all passes are done, into a list of their exact
+    // number (a smoother is a kilobyte; a list grown by doubling holds up to twice that).
+    let mut found: Vec<Vec<Smoother>> = Vec::new();
     for part in parts {
-        result.smoothers.extend(part.smoothers);
+        found.push(part.smoothers);
         result.notes.extend(part.notes);
         used.extend(part.used_macros);
         for (f, s) in part.summaries {
@@ -281,7 +284,7 @@ pub fn recognise_counting(
         .map(|&f| instances::instances_in(program, f, &helpers, &summaries, options))
         .collect();
     for (s, n, u) in second {
-        result.smoothers.extend(s);
+        found.push(s);
         result.notes.extend(n);
         used.extend(u);
     }
@@ -301,8 +304,12 @@ pub fn recognise_counting(
         .par_iter()
         .map(|&r| macro_definition(program, r, options))
         .collect();
-    for d in defs {
-        result.smoothers.extend(d);
+    found.extend(defs);
+    result
+        .smoothers
+        .reserve_exact(found.iter().map(Vec::len).sum());
+    for s in found {
+        result.smoothers.extend(s);
     }
     crate::scan::phase("  macro defs", started);
     let started = std::time::Instant::now();
