@@ -164,6 +164,9 @@ pub struct Program {
     /// `#if` texts already judged (three-valued).
     #[serde(skip)]
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
+    /// Macro bodies parsed, once per text.
+    #[serde(skip)]
+    snippets: crate::parse::Snippets,
 }
 
 impl Program {
@@ -195,6 +198,7 @@ impl Program {
             closures: Vec::new(),
             macro_bodies: Vec::new(),
             pp_cache: std::sync::RwLock::new(HashMap::new()),
+            snippets: Default::default(),
         };
         for (fi, file) in program.files.iter().enumerate() {
             for (i, m) in file.macros.iter().enumerate() {
@@ -556,7 +560,7 @@ impl Program {
         }
         let cell = self.macro_exprs.get(r.0)?.get(r.1)?;
         let expr = cell
-            .get_or_init(|| Box::new(crate::parse::parse_expression(&m.body, m.span)))
+            .get_or_init(|| Box::new(self.snippets.expression(&m.body, m.span)))
             .as_ref();
         Some((m, expr))
     }
@@ -1279,10 +1283,10 @@ impl Program {
         let Some(cell) = self.macro_bodies.get(r.0).and_then(|f| f.get(r.1)) else {
             return &NEITHER;
         };
-        cell.get_or_init(|| Box::new(Self::macro_body_of(&self.files[r.0].macros[r.1])))
+        cell.get_or_init(|| Box::new(self.macro_body_of(&self.files[r.0].macros[r.1])))
     }
 
-    fn macro_body_of(m: &MacroDef) -> MacroBody {
+    fn macro_body_of(&self, m: &MacroDef) -> MacroBody {
         if m.body.trim().is_empty() || m.body.contains('#') {
             return MacroBody::Neither;
         }
@@ -1306,11 +1310,11 @@ impl Program {
             || body.starts_with("for")
             || body.starts_with("while");
         if !looks_like_statements {
-            if let Some(e) = crate::parse::parse_expression(body, m.span) {
+            if let Some(e) = self.snippets.expression(body, m.span) {
                 return MacroBody::Expr(e);
             }
         }
-        match crate::parse::parse_statements(body, m.span) {
+        match self.snippets.statements(body, m.span) {
             Some(stmts) => MacroBody::Stmts(stmts),
             None => MacroBody::Neither,
         }

@@ -1064,6 +1064,100 @@ pub struct FileIr {
     pub prototypes: Vec<(String, CType)>,
 }
 
+/// Moves every span of `stmts` to file `file` (as [`FileIr::move_to`] does a file's).
+pub fn move_stmts_to(stmts: &mut [Stmt], file: FileId) {
+    stmts.iter_mut().for_each(|s| move_stmt(s, file));
+}
+
+/// Moves every span of `e` to file `file`.
+pub fn move_expr_to(e: &mut Expr, file: FileId) {
+    move_expr(e, file);
+}
+
+fn move_ty(t: &mut CType, file: FileId) {
+    match t {
+        CType::Pointer(inner) => move_ty(inner, file),
+        CType::Array(inner, size) => {
+            move_ty(inner, file);
+            if let Some(size) = size {
+                move_expr(size, file);
+            }
+        }
+        _ => {}
+    }
+}
+fn move_expr(e: &mut Expr, file: FileId) {
+    e.span.file = file;
+    if let ExprKind::Cast { ty: t, .. } = &mut e.kind {
+        move_ty(t, file);
+    }
+    e.children_mut(&mut |c| move_expr(c, file));
+}
+fn move_init(i: &mut Initializer, file: FileId) {
+    match i {
+        Initializer::Expr(e) => move_expr(e, file),
+        Initializer::List(items) => items.iter_mut().for_each(|(_, i)| move_init(i, file)),
+    }
+}
+fn move_decl(d: &mut LocalDecl, file: FileId) {
+    d.span.file = file;
+    move_ty(&mut d.ty, file);
+    if let Some(i) = &mut d.init {
+        move_init(i, file);
+    }
+}
+fn move_stmt(s: &mut Stmt, file: FileId) {
+    match s {
+        Stmt::Expr(e) => move_expr(e, file),
+        Stmt::Decl(decls) => decls.iter_mut().for_each(|d| move_decl(d, file)),
+        Stmt::Block(items) => items.iter_mut().for_each(|s| move_stmt(s, file)),
+        Stmt::If {
+            cond,
+            then,
+            otherwise,
+        } => {
+            move_expr(cond, file);
+            move_stmt(then, file);
+            if let Some(o) = otherwise {
+                move_stmt(o, file);
+            }
+        }
+        Stmt::Loop {
+            init,
+            cond,
+            step,
+            body,
+            span,
+        } => {
+            span.file = file;
+            init.iter_mut().for_each(|s| move_stmt(s, file));
+            if let Some(c) = cond {
+                move_expr(c, file);
+            }
+            if let Some(s) = step {
+                move_expr(s, file);
+            }
+            move_stmt(body, file);
+        }
+        Stmt::Switch { scrutinee, body } => {
+            move_expr(scrutinee, file);
+            move_stmt(body, file);
+        }
+        Stmt::Return(e, span) => {
+            span.file = file;
+            if let Some(e) = e {
+                move_expr(e, file);
+            }
+        }
+        Stmt::Conditional(branches) => {
+            for (_, body) in branches {
+                body.iter_mut().for_each(|s| move_stmt(s, file));
+            }
+        }
+        Stmt::Other(span) => span.file = file,
+    }
+}
+
 impl FileIr {
     /// Makes equal conditions of neighbouring definitions one shared value again, as the
     /// lowering made them (an IR decoded from bytes holds a copy per definition: a
@@ -1094,128 +1188,45 @@ impl FileIr {
     /// bytes equal another's takes a clone of that file's IR moved to itself, sharing its
     /// texts and conditions.
     pub fn move_to(&mut self, file: FileId) {
-        fn ty(t: &mut CType, file: FileId) {
-            match t {
-                CType::Pointer(inner) => ty(inner, file),
-                CType::Array(inner, size) => {
-                    ty(inner, file);
-                    if let Some(size) = size {
-                        expr(size, file);
-                    }
-                }
-                _ => {}
-            }
-        }
-        fn expr(e: &mut Expr, file: FileId) {
-            e.span.file = file;
-            if let ExprKind::Cast { ty: t, .. } = &mut e.kind {
-                ty(t, file);
-            }
-            e.children_mut(&mut |c| expr(c, file));
-        }
-        fn init(i: &mut Initializer, file: FileId) {
-            match i {
-                Initializer::Expr(e) => expr(e, file),
-                Initializer::List(items) => items.iter_mut().for_each(|(_, i)| init(i, file)),
-            }
-        }
-        fn decl(d: &mut LocalDecl, file: FileId) {
-            d.span.file = file;
-            ty(&mut d.ty, file);
-            if let Some(i) = &mut d.init {
-                init(i, file);
-            }
-        }
-        fn stmt(s: &mut Stmt, file: FileId) {
-            match s {
-                Stmt::Expr(e) => expr(e, file),
-                Stmt::Decl(decls) => decls.iter_mut().for_each(|d| decl(d, file)),
-                Stmt::Block(items) => items.iter_mut().for_each(|s| stmt(s, file)),
-                Stmt::If {
-                    cond,
-                    then,
-                    otherwise,
-                } => {
-                    expr(cond, file);
-                    stmt(then, file);
-                    if let Some(o) = otherwise {
-                        stmt(o, file);
-                    }
-                }
-                Stmt::Loop {
-                    init,
-                    cond,
-                    step,
-                    body,
-                    span,
-                } => {
-                    span.file = file;
-                    init.iter_mut().for_each(|s| stmt(s, file));
-                    if let Some(c) = cond {
-                        expr(c, file);
-                    }
-                    if let Some(s) = step {
-                        expr(s, file);
-                    }
-                    stmt(body, file);
-                }
-                Stmt::Switch { scrutinee, body } => {
-                    expr(scrutinee, file);
-                    stmt(body, file);
-                }
-                Stmt::Return(e, span) => {
-                    span.file = file;
-                    if let Some(e) = e {
-                        expr(e, file);
-                    }
-                }
-                Stmt::Conditional(branches) => {
-                    for (_, body) in branches {
-                        body.iter_mut().for_each(|s| stmt(s, file));
-                    }
-                }
-                Stmt::Other(span) => span.file = file,
-            }
-        }
         self.file = file;
         for m in &mut self.macros {
             m.span.file = file;
         }
         for g in &mut self.globals {
-            decl(&mut g.decl, file);
+            move_decl(&mut g.decl, file);
         }
         for f in &mut self.functions {
             f.span.file = file;
             f.name_span.file = file;
             for p in &mut f.params {
-                ty(&mut p.ty, file);
+                move_ty(&mut p.ty, file);
             }
-            ty(&mut f.returns, file);
+            move_ty(&mut f.returns, file);
             // A parked body holds no file ids: it is read back as its function's file.
             if let Some(body) = f.body.live_mut() {
-                body.iter_mut().for_each(|s| stmt(s, file));
+                body.iter_mut().for_each(|s| move_stmt(s, file));
             }
         }
         for s in &mut self.structs {
             s.span.file = file;
             for p in &mut s.fields {
-                ty(&mut p.ty, file);
+                move_ty(&mut p.ty, file);
             }
         }
         for e in &mut self.enums {
             e.span.file = file;
             if let Some(v) = &mut e.value {
-                expr(v, file);
+                move_expr(v, file);
             }
         }
         for (_, t) in &mut self.typedefs {
-            ty(t, file);
+            move_ty(t, file);
         }
         for p in &mut self.problems {
             p.span.file = file;
         }
         for (_, t) in &mut self.prototypes {
-            ty(t, file);
+            move_ty(t, file);
         }
     }
 }

@@ -1155,6 +1155,56 @@ pub fn parse_statements(text: &str, anchor: Span) -> Option<Vec<Stmt>> {
     parse_snippet(&wrapped, anchor)
 }
 
+/// Snippets parsed once per text: a macro body written the same in many files (a vendor
+/// header copied into every board's folder) is parsed by tree-sitter once, at no position,
+/// then copied and moved to each definition. A copy moved so is the snippet parsed there:
+/// the lowering puts the anchor's file in every span and the relocation its position.
+#[derive(Default)]
+pub struct Snippets {
+    parsed: std::sync::RwLock<std::collections::HashMap<String, Option<Vec<Stmt>>>>,
+}
+
+impl Snippets {
+    /// [`parse_expression`], once per text.
+    pub fn expression(&self, text: &str, anchor: Span) -> Option<Expr> {
+        let stmts = self.parse(
+            format!("void tauscan_snippet(void) {{ ({text}); }}"),
+            anchor,
+        )?;
+        match stmts.into_iter().next()? {
+            Stmt::Expr(expr) => Some(expr),
+            _ => None,
+        }
+    }
+
+    /// [`parse_statements`], once per text.
+    pub fn statements(&self, text: &str, anchor: Span) -> Option<Vec<Stmt>> {
+        self.parse(format!("void tauscan_snippet(void) {{ {text}; }}"), anchor)
+    }
+
+    fn parse(&self, wrapped: String, anchor: Span) -> Option<Vec<Stmt>> {
+        let known = self
+            .parsed
+            .read()
+            .ok()
+            .and_then(|m| m.get(&wrapped).cloned());
+        let parsed = match known {
+            Some(p) => p,
+            None => {
+                let p = parse_snippet(&wrapped, Span::default());
+                if let Ok(mut m) = self.parsed.write() {
+                    m.entry(wrapped).or_insert_with(|| p.clone());
+                }
+                p
+            }
+        };
+        let mut stmts = parsed?;
+        crate::ir::move_stmts_to(&mut stmts, anchor.file);
+        relocate_stmts(&mut stmts, anchor);
+        Some(stmts)
+    }
+}
+
 fn parse_snippet(wrapped: &str, anchor: Span) -> Option<Vec<Stmt>> {
     let tree = parse_tree(wrapped.as_bytes())?;
     let mut ir = FileIr::default();
@@ -2492,6 +2542,49 @@ fn parse_hex_float(text: &str) -> Option<f64> {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn a_snippet_parsed_once_is_the_snippet_parsed_where_it_is_used() {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures");
+        let snippets = Snippets::default();
+        let mut checked = 0;
+        for entry in walkdir::WalkDir::new(&root).into_iter().flatten() {
+            let path = entry.path();
+            if !matches!(path.extension().and_then(|e| e.to_str()), Some("c" | "h")) {
+                continue;
+            }
+            let Ok(bytes) = std::fs::read(path) else {
+                continue;
+            };
+            let ir = parse_file(FileId(2), &bytes);
+            // Each body at its own definition and again as another file's (a memo hit).
+            for m in &ir.macros {
+                let elsewhere = Span {
+                    file: FileId(9),
+                    line: m.span.line + 1,
+                    ..m.span
+                };
+                for anchor in [m.span, elsewhere] {
+                    assert_eq!(
+                        format!("{:?}", snippets.expression(&m.body, anchor)),
+                        format!("{:?}", parse_expression(&m.body, anchor)),
+                        "{}: {}",
+                        path.display(),
+                        m.name
+                    );
+                    assert_eq!(
+                        format!("{:?}", snippets.statements(&m.body, anchor)),
+                        format!("{:?}", parse_statements(&m.body, anchor)),
+                        "{}: {}",
+                        path.display(),
+                        m.name
+                    );
+                    checked += 1;
+                }
+            }
+        }
+        assert!(checked > 400, "only {checked} macro bodies");
+    }
 
     #[test]
     fn bare_macro_lines_in_bodies_are_ended_and_nothing_else_moves() {
