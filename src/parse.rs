@@ -1005,12 +1005,86 @@ fn trim_blank(bytes: &[u8]) -> &[u8] {
     &bytes[skip..]
 }
 
+/// Whether `source` is only a table of constants: numbers, character and string literals,
+/// separated by commas (in braces or not, signed or not), with comments and blanks. Such
+/// a file (a font, a lookup table) is written to be `#include`d inside an array's
+/// initialiser; it declares, defines and runs nothing. The grammar reads a file as
+/// declarations and takes seconds to recover from the one long error it sees there (2.5 s
+/// for a 180 KB font table), so it is not parsed.
+pub fn is_constant_table(source: &[u8]) -> bool {
+    let n = source.len();
+    let mut i = 0;
+    let mut commas = 0usize;
+    let mut literals = 0usize;
+    while i < n {
+        let c = source[i];
+        match c {
+            b' ' | b'\t' | b'\r' | b'\n' | 0x0b | 0x0c => i += 1,
+            b'/' if source.get(i + 1) == Some(&b'*') => {
+                let mut j = i + 2;
+                while j + 1 < n && !(source[j] == b'*' && source[j + 1] == b'/') {
+                    j += 1;
+                }
+                if j + 1 >= n {
+                    return false;
+                }
+                i = j + 2;
+            }
+            b'/' if source.get(i + 1) == Some(&b'/') => {
+                while i < n && source[i] != b'\n' {
+                    i += 1;
+                }
+            }
+            b',' => {
+                commas += 1;
+                i += 1;
+            }
+            b'{' | b'}' | b'-' | b'+' => i += 1,
+            b'0'..=b'9' => {
+                // A number with its prefix, digits, point, exponent and suffix letters.
+                while i < n
+                    && (source[i].is_ascii_alphanumeric() || matches!(source[i], b'.' | b'_'))
+                {
+                    let exponent = matches!(source[i], b'e' | b'E' | b'p' | b'P');
+                    i += 1;
+                    if exponent && i < n && matches!(source[i], b'+' | b'-') {
+                        i += 1;
+                    }
+                }
+                literals += 1;
+            }
+            b'\'' | b'"' => {
+                let mut j = i + 1;
+                while j < n && source[j] != c {
+                    if source[j] == b'\n' {
+                        return false;
+                    }
+                    if source[j] == b'\\' {
+                        j += 1;
+                    }
+                    j += 1;
+                }
+                if j >= n {
+                    return false;
+                }
+                i = j + 1;
+                literals += 1;
+            }
+            _ => return false,
+        }
+    }
+    literals > 0 && commas > 0
+}
+
 /// Lowers one C file. Never fails; problems are returned inside the IR.
 pub fn parse_file(file: FileId, source: &[u8]) -> FileIr {
     let mut ir = FileIr {
         file,
         ..FileIr::default()
     };
+    if is_constant_table(source) {
+        return ir;
+    }
     let without_comments = blank_directive_comments(source);
     let without_includes = blank_computed_includes(&without_comments);
     let terminated = terminate_bare_macro_lines(&without_includes);
@@ -2584,6 +2658,34 @@ mod tests {
             }
         }
         assert!(checked > 400, "only {checked} macro bodies");
+    }
+
+    #[test]
+    fn only_constants_commas_braces_and_comments_make_a_table() {
+        let table = b"/* gains */\n  0x1F, -3, 2.5e-3f, 1e+2,\n  'a', \"b\\\"c\", // end\n  { 07, 0b101 }, 5u\n";
+        assert!(is_constant_table(table));
+        assert!(is_constant_table(b"1, 2"));
+        let lowered = parse_file(FileId(4), table);
+        assert!(lowered.problems.is_empty());
+        assert!(lowered.functions.is_empty() && lowered.macros.is_empty());
+        for not_table in [
+            &b""[..],
+            b"/* only a comment */\n",
+            b"42\n",
+            b"1, 2, THREE,\n",
+            b"#define K 3\n1, 2,\n",
+            b"1, 2;\n",
+            b"int t[] = { 1, 2 };\n",
+            b"1, (2), 3\n",
+            b"1, 2 /* unclosed",
+            b"'a, 2\n",
+        ] {
+            assert!(
+                !is_constant_table(not_table),
+                "{}",
+                String::from_utf8_lossy(not_table)
+            );
+        }
     }
 
     #[test]
