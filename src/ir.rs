@@ -885,6 +885,29 @@ impl Body {
         Stmts::Decoded(stmts)
     }
 
+    /// How many statements the body holds at its top level, without reading a parked body
+    /// back: its encoding starts with that count (postcard's varint). A parked body whose
+    /// count does not read counts as none (it reads back as no statements).
+    pub fn len(&self) -> usize {
+        match self {
+            Body::Live(stmts) => stmts.len(),
+            Body::Parked(bytes) => {
+                let mut count: u64 = 0;
+                for (k, byte) in bytes.iter().take(10).enumerate() {
+                    count |= u64::from(byte & 0x7f) << (7 * k);
+                    if byte & 0x80 == 0 {
+                        return usize::try_from(count).unwrap_or(0);
+                    }
+                }
+                0
+            }
+        }
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
     /// The statements of a live body, to change them (the lowering's and tests' own).
     pub fn live_mut(&mut self) -> Option<&mut Vec<Stmt>> {
         match self {
@@ -1255,6 +1278,7 @@ mod body_tests {
         let damaged = Body::Parked(vec![0xff, 0xff, 0xff].into());
         assert!(!damaged.reads_back());
         assert!(damaged.stmts(FileId(1)).is_empty());
+        assert_eq!(damaged.len(), 0);
         let ir = crate::parse::parse_file(FileId(1), b"int y;\nvoid f(int u) { y += u; }\n");
         let mut body = ir.functions[0].body.clone();
         assert!(body.reads_back());
@@ -1263,5 +1287,13 @@ mod body_tests {
         assert_eq!(body.stmts(FileId(1)).len(), 1);
         assert_eq!(body, ir.functions[0].body);
         assert_ne!(body, damaged);
+        // A count past one varint byte.
+        let long: String = (0..300).map(|i| format!("y += {i};\n")).collect();
+        let source = format!("int y;\nvoid g(void) {{\n{long}}}\n");
+        let ir = crate::parse::parse_file(FileId(1), source.as_bytes());
+        let mut body = ir.functions[0].body.clone();
+        body.park();
+        assert!(matches!(body, Body::Parked(_)));
+        assert_eq!(body.len(), 300);
     }
 }

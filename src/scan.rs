@@ -650,6 +650,7 @@ mod tests {
                 assert!(matches!(l.body, Body::Live(_)));
                 // The statements, file ids and all, read back as lowered.
                 assert_eq!(*m.body(), *l.body(), "{}: {}", path.display(), l.name);
+                assert_eq!(m.body.len(), l.body().len());
                 assert_eq!(m.body, l.body);
                 checked += 1;
             }

@@ -165,7 +165,7 @@ impl Helpers {
 
 fn compute_return(program: &Program, f: FuncRef) -> Option<ReturnTemplate> {
     let function = program.function(f);
-    if function.body().len() > 24 || matches!(function.returns, CType::Void) {
+    if matches!(function.returns, CType::Void) || function.body.len() > 24 {
         return None;
     }
     let setup = Setup {
