@@ -164,6 +164,9 @@ pub struct Program {
     /// `#if` texts already judged (three-valued).
     #[serde(skip)]
     pp_cache: std::sync::RwLock<HashMap<String, Tri>>,
+    /// `#if` texts already judged as the default build takes them (two-valued).
+    #[serde(skip)]
+    pp_holds: std::sync::RwLock<HashMap<String, bool>>,
     /// Macro bodies parsed, once per text.
     #[serde(skip)]
     snippets: crate::parse::Snippets,
@@ -198,6 +201,7 @@ impl Program {
             closures: Vec::new(),
             macro_bodies: Vec::new(),
             pp_cache: std::sync::RwLock::new(HashMap::new()),
+            pp_holds: std::sync::RwLock::new(HashMap::new()),
             snippets: Default::default(),
         };
         for (fi, file) in program.files.iter().enumerate() {
@@ -1333,6 +1337,24 @@ impl Program {
     /// their command-line or unconditional macro values (recursively, bounded), and any
     /// other identifier is 0 as C11 6.10.1p4 says.
     fn eval_pp_condition(&self, text: &str) -> bool {
+        // Once the defined names are settled (as for the three-valued cache), a text's
+        // value no longer changes: each is worked out once.
+        let settled = !self.defined_tri.is_empty();
+        if settled {
+            if let Some(v) = self.pp_holds.read().ok().and_then(|c| c.get(text).copied()) {
+                return v;
+            }
+        }
+        let v = self.eval_pp_condition_once(text);
+        if settled {
+            if let Ok(mut cache) = self.pp_holds.write() {
+                cache.insert(text.to_string(), v);
+            }
+        }
+        v
+    }
+
+    fn eval_pp_condition_once(&self, text: &str) -> bool {
         let replaced = replace_defined(text, |name| self.is_defined(name));
         let mut seen = HashSet::new();
         let expanded = self.expand_pp_identifiers(&replaced, &mut seen, 0);
