@@ -23,7 +23,7 @@ thread_local! {
     static PARKING: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
     /// The names read so far while a file is loaded, so that each is allocated once, as
     /// the lowering does.
-    static LOADING_NAMES: std::cell::RefCell<Option<std::collections::HashSet<std::sync::Arc<str>>>> =
+    static LOADING_NAMES: std::cell::RefCell<Option<rustc_hash::FxHashSet<std::sync::Arc<str>>>> =
         const { std::cell::RefCell::new(None) };
 }
 
