@@ -354,7 +354,7 @@ impl Program {
     }
 
     /// The arguments of every call site, taken from its call in `files` (the cache keeps
-    /// the call table without them, so that they are not a second copy of the IR's): each
+    /// the call table without them, as they are in the files' bodies already): each
     /// caller's calls are found in the order the table was built in, and each must have
     /// the site's caller, span and name; every site must be restored once. False when
     /// not, and the table cannot be used.

@@ -290,7 +290,8 @@ pub enum ExprKind {
         arg: Box<Expr>,
     },
     /// `args` is shared with the index's call table (`index::CallSite`), which keeps
-    /// every call's arguments: shared, not copied. Code that rewrites them copies on write
+    /// every call's arguments as read back from the parked body (the body's own copy goes
+    /// when the body is dropped again). Code that rewrites them copies on write
     /// (`Arc::make_mut`).
     Call {
         callee: Box<Expr>,
@@ -777,7 +778,8 @@ impl Function {
 /// body's postcard encoding (a fifth of the memory or less), with every file id written
 /// as 0; it is read back as the file it belongs to ([`Function::body`]), and the last few
 /// bodies read on each thread are kept decoded. Bodies equal but for their file park as
-/// equal bytes, so `==` compares the bytes.
+/// equal bytes: `==` compares two live bodies as statements and otherwise compares the
+/// parked bytes, so a parked body equals the live body of any file it was parked from.
 #[derive(Clone)]
 pub enum Body {
     Live(Vec<Stmt>),
@@ -1274,7 +1276,7 @@ mod body_tests {
     use super::*;
 
     #[test]
-    fn a_parked_body_that_does_not_read_back_is_no_statements() {
+    fn a_parked_body_reads_back_as_each_file_and_a_damaged_one_as_nothing() {
         let damaged = Body::Parked(vec![0xff, 0xff, 0xff].into());
         assert!(!damaged.reads_back());
         assert!(damaged.stmts(FileId(1)).is_empty());
@@ -1287,6 +1289,13 @@ mod body_tests {
         assert_eq!(body.stmts(FileId(1)).len(), 1);
         assert_eq!(body, ir.functions[0].body);
         assert_ne!(body, damaged);
+        // Read as two files in turn: each reading is that file's, not the last one kept.
+        for file in [FileId(1), FileId(2), FileId(1)] {
+            let Stmt::Expr(e) = &body.stmts(file)[0] else {
+                panic!("not an expression statement");
+            };
+            assert_eq!(e.span.file, file);
+        }
         // A count past one varint byte.
         let long: String = (0..300).map(|i| format!("y += {i};\n")).collect();
         let source = format!("int y;\nvoid g(void) {{\n{long}}}\n");
