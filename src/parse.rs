@@ -1064,7 +1064,8 @@ fn trim_blank(bytes: &[u8]) -> &[u8] {
 }
 
 /// Whether `source` is only a table of constants: numbers, character and string literals,
-/// separated by commas (in braces or not, signed or not), with comments and blanks. Such
+/// commas, braces and signs, with comments and blanks (at least one literal and one comma;
+/// their order is not checked, as nothing in such a file can declare anything). Such
 /// a file (a font, a lookup table) is written to be `#include`d inside an array's
 /// initialiser; it declares, defines and runs nothing. The grammar reads a file as
 /// declarations and takes seconds to recover from the one long error it sees there (2.5 s
