@@ -1414,25 +1414,26 @@ fn writes_and_calls_of(program: &Program, fi: usize, file: &FileIr) -> (Vec<Writ
         let fref = FuncRef { file: fi, index: i };
         // Writes to a function's own plain locals are never asked about (values
         // come from globals, fields and statics), and most writes are to them.
+        let body = f.body();
         let mut locals = HashSet::new();
-        collect_plain_locals(&f.body(), &mut locals);
+        collect_plain_locals(&body, &mut locals);
         for p in &f.params {
             locals.insert(p.name.clone());
         }
         let is_local = |t: &Expr| matches!(&t.kind, ExprKind::Ident(n) if locals.contains(&**n));
         let mut top_level: HashSet<u32> = HashSet::new();
-        top_level_statements(&f.body(), &mut top_level);
+        top_level_statements(&body, &mut top_level);
         let first = writes.len();
         // Writes count where the default build takes them (`#ifdef TUNE` overrides are not
         // the configuration's value); calls count in every branch that may be built.
         let mut built: HashSet<u32> = HashSet::new();
-        visit_stmts_built(program, &f.body(), &mut |e| {
+        visit_stmts_built(program, &body, &mut |e| {
             if matches!(e.kind, ExprKind::Assign { .. } | ExprKind::IncDec { .. }) {
                 built.insert(e.span.start);
             }
         });
         let is_built = |e: &Expr| built.contains(&e.span.start);
-        visit_stmts(&f.body(), &mut |e| match &e.kind {
+        visit_stmts(&body, &mut |e| match &e.kind {
             ExprKind::Assign { .. } | ExprKind::IncDec { .. } if !is_built(e) => {}
             ExprKind::Assign { target, .. } if is_local(target) => {}
             ExprKind::IncDec { target, .. } if is_local(target) => {}

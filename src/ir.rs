@@ -1094,11 +1094,6 @@ pub fn move_stmts_to(stmts: &mut [Stmt], file: FileId) {
     stmts.iter_mut().for_each(|s| move_stmt(s, file));
 }
 
-/// Moves every span of `e` to file `file`.
-pub fn move_expr_to(e: &mut Expr, file: FileId) {
-    move_expr(e, file);
-}
-
 fn move_ty(t: &mut CType, file: FileId) {
     match t {
         CType::Pointer(inner) => move_ty(inner, file),

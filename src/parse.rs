@@ -2679,7 +2679,6 @@ mod tests {
 
     #[test]
     fn a_snippet_parsed_once_is_the_snippet_parsed_where_it_is_used() {
-        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures");
         let snippets = Snippets::default();
         let mut checked = 0;
         // Bodies with spans the relocation leaves (array sizes in types, initialisers).
@@ -2708,14 +2707,7 @@ mod tests {
                 );
             }
         }
-        for entry in walkdir::WalkDir::new(&root).into_iter().flatten() {
-            let path = entry.path();
-            if !matches!(path.extension().and_then(|e| e.to_str()), Some("c" | "h")) {
-                continue;
-            }
-            let Ok(bytes) = std::fs::read(path) else {
-                continue;
-            };
+        for (path, bytes) in crate::fixture_sources() {
             let ir = parse_file(FileId(2), &bytes);
             // Each body at its own definition and again as another file's (a memo hit).
             for m in &ir.macros {
@@ -2728,15 +2720,13 @@ mod tests {
                     assert_eq!(
                         format!("{:?}", snippets.expression(&m.body, anchor)),
                         format!("{:?}", parse_expression(&m.body, anchor)),
-                        "{}: {}",
-                        path.display(),
+                        "{path}: {}",
                         m.name
                     );
                     assert_eq!(
                         format!("{:?}", snippets.statements(&m.body, anchor)),
                         format!("{:?}", parse_statements(&m.body, anchor)),
-                        "{}: {}",
-                        path.display(),
+                        "{path}: {}",
                         m.name
                     );
                     checked += 1;
@@ -2776,16 +2766,7 @@ mod tests {
                 }
             }
         }
-        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures");
-        let mut texts: Vec<(String, Vec<u8>)> = Vec::new();
-        for entry in walkdir::WalkDir::new(&root).into_iter().flatten() {
-            let path = entry.path();
-            if matches!(path.extension().and_then(|e| e.to_str()), Some("c" | "h")) {
-                if let Ok(bytes) = std::fs::read(path) {
-                    texts.push((path.display().to_string(), bytes));
-                }
-            }
-        }
+        let mut texts = crate::fixture_sources();
         // Written here too: conditionals that split statements, in a kiln's controller.
         texts.push((
             "kiln.c".into(),

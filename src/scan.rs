@@ -602,16 +602,8 @@ mod tests {
     #[test]
     fn a_moved_clone_is_the_ir_lowered_as_that_file() {
         use crate::ir::FileId;
-        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures");
         let mut checked = 0;
-        for entry in walkdir::WalkDir::new(&root).into_iter().flatten() {
-            let path = entry.path();
-            if !matches!(path.extension().and_then(|e| e.to_str()), Some("c" | "h")) {
-                continue;
-            }
-            let Ok(bytes) = std::fs::read(path) else {
-                continue;
-            };
+        for (path, bytes) in crate::fixture_sources() {
             let first = crate::parse::parse_file(FileId(0), &bytes);
             let mut moved = first.clone();
             moved.move_to(FileId(7));
@@ -619,8 +611,7 @@ mod tests {
             assert_eq!(
                 postcard::to_stdvec(&moved).ok(),
                 postcard::to_stdvec(&lowered).ok(),
-                "{}",
-                path.display()
+                "{path}"
             );
             checked += 1;
         }
@@ -630,26 +621,18 @@ mod tests {
     #[test]
     fn parked_bodies_read_back_as_lowered_in_their_file() {
         use crate::ir::{Body, FileId};
-        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures");
         let mut checked = 0;
-        for entry in walkdir::WalkDir::new(&root).into_iter().flatten() {
-            let path = entry.path();
-            if !matches!(path.extension().and_then(|e| e.to_str()), Some("c" | "h")) {
-                continue;
-            }
-            let Ok(bytes) = std::fs::read(path) else {
-                continue;
-            };
+        for (path, bytes) in crate::fixture_sources() {
             // Parked as file 0 (as the scan does), then moved as a copy is.
             let mut moved = super::parse_packed(FileId(0), &bytes);
             moved.move_to(FileId(7));
             let lowered = crate::parse::parse_file(FileId(7), &bytes);
             assert_eq!(moved.functions.len(), lowered.functions.len());
             for (m, l) in moved.functions.iter().zip(&lowered.functions) {
-                assert!(matches!(m.body, Body::Parked(_)), "{}", path.display());
+                assert!(matches!(m.body, Body::Parked(_)), "{path}");
                 assert!(matches!(l.body, Body::Live(_)));
                 // The statements, file ids and all, read back as lowered.
-                assert_eq!(*m.body(), *l.body(), "{}: {}", path.display(), l.name);
+                assert_eq!(*m.body(), *l.body(), "{path}: {}", l.name);
                 assert_eq!(m.body.len(), l.body().len());
                 assert_eq!(m.body, l.body);
                 checked += 1;
